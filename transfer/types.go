@@ -1,0 +1,95 @@
+package transfer
+
+import (
+	"maserpol/levels"
+)
+
+// This file is the contract between transfer and its consumers (config,
+// runs, cmd). Units here are SI unless noted; the config package converts
+// user units to these.
+
+// PumpKind selects the pumping model of physics.md section 4.
+type PumpKind int
+
+const (
+	Isotropic   PumpKind = iota // p_a = 1 for every eigenstate
+	Anisotropic                 // p_a from the alignment of the state, signed Alignment
+	Hyperfine                   // p_a weighted by F label
+)
+
+// Pump describes how the levels are pumped.
+type Pump struct {
+	Kind PumpKind
+	// Alignment is the signed anisotropy of the pump for Anisotropic
+	// (dimensionless, |Alignment| <= 1; 0 is isotropic). Positive favours
+	// the |m_J| = J states of the upper level (see doc.go).
+	Alignment float64
+	// UpperF and LowerF give relative pumping weights by F label for
+	// Hyperfine (missing F labels get weight 1).
+	UpperF map[float64]float64
+	LowerF map[float64]float64
+}
+
+// Seed is the radiation entering the column at s = 0.
+type Seed struct {
+	Tb               float64 // brightness temperature, K
+	LinearFraction   float64 // 0..1
+	CircularFraction float64 // -1..1 (V/I)
+	Angle            float64 // sky position angle of the seed's linear polarization, rad
+}
+
+// Params describes one model: species, field, line, pumping, seed, column.
+type Params struct {
+	Species *levels.Species
+	Field   float64 // gauss (sign: along +k when positive; see doc.go)
+	Theta   float64 // angle between B and the line of sight, rad, [0, pi]
+	Chi     float64 // sky position angle of projected B, rad
+
+	Doppler  float64 // 1/e half-width of the thermal+turbulent profile, m/s
+	Channels int     // default 256
+	Span     float64 // total velocity span of the channel grid, m/s; 0 = automatic
+
+	GammaUpper float64 // decay rate of upper eigenstates, s^-1
+	GammaLower float64 // decay rate of lower eigenstates, s^-1
+	BeamSolid  float64 // beam solid angle dOmega, sr
+
+	Pump Pump
+	Seed Seed
+
+	ElectronDensity float64 // in-source free electrons for Faraday rotation, cm^-3 (0 = none)
+
+	Saturation           float64 // stop when R/Gamma at line centre reaches this (default 1e4)
+	Gain                 float64 // or stop at this total unsaturated line-centre gain (used when > 0)
+	CheckpointsPerDecade int     // default 8
+	FirstCheckpoint      float64 // lowest saturation recorded, default 1e-3
+	Tolerance            float64 // relative local error per step, default 1e-4
+}
+
+// Checkpoint is the emergent spectrum and its reported quantities at one
+// point along the column (physics.md section 6).
+type Checkpoint struct {
+	Saturation  float64 // max over lines of R/Gamma at line centre
+	Gain        float64 // unsaturated line-centre optical depth (|tau|) accumulated so far
+	TbdOmega    float64 // K sr
+	IPeak       float64 // K
+	Ml          float64 // sqrt(Q^2+U^2)/I at the peak channel
+	MlInt       float64 // intensity-weighted over the line
+	EVPA        float64 // rad, sky frame, IAU
+	Qb          float64 // Q_f/I at the peak, field frame, > 0 parallel to projected B
+	PV          float64 // (V_max - V_min)/I_peak
+	VIPeak      float64 // V/I at the peak channel
+	RoverGOmega float64 // R / (g Omega), populations-only validity (valid when <= 0.1)
+	Valid       bool
+	// Sky-frame Stokes spectra in K of brightness temperature, one per channel.
+	I, Q, U, V []float64
+}
+
+// Trajectory is the result of one model: the channel grid and the
+// checkpoints in increasing saturation.
+type Trajectory struct {
+	Velocity    []float64 // channel velocities, m/s
+	Checkpoints []Checkpoint
+	// GOmega is the Zeeman splitting in rate units (s^-1) used for validity.
+	GOmega   float64
+	Warnings []string
+}
