@@ -71,6 +71,9 @@ type State struct {
 	F, F1 float64
 	// MJ2 is <m_J^2> of the state, used by alignment (anisotropic) pumping.
 	MJ2 float64
+	// Multiplet indexes the zero-field hyperfine level (Solver.Multiplets)
+	// the state is carried from; it distinguishes levels with equal F, F1.
+	Multiplet int
 	// Vector holds the amplitudes on Structure.Basis (real: the Hamiltonian is real symmetric).
 	Vector []float64
 }

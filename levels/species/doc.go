@@ -1,0 +1,37 @@
+// Package species reads species files and holds the built-in species
+// presets of maserpol.
+//
+// A species file is TOML. Every frequency-like value carries its unit as a
+// string ("43.122080 GHz", "-15 kHz"); einstein_a is a number in s^-1 or a
+// string with a rate unit; mass a number in amu or a string with a mass unit.
+// Angular momenta (J, I) are numbers or strings like "3/2".
+//
+//	name = "free text"
+//	frequency = "43.122080 GHz"   # rest frequency of the unsplit line
+//	einstein_a = 3.0e-6           # s^-1
+//	mass = "44 amu"
+//	magneton = "nuclear"          # "nuclear" or "bohr" (paramagnetic, electron sign)
+//	unverified = true             # some constant is from memory: users are warned
+//	sources = ["..."]             # free-text provenance, kept in Species.Notes
+//	[upper]
+//	J = 1
+//	g = -0.155                    # rotational g-factor in units of the magneton
+//	label = "v=1 J=1"             # optional free text
+//	[lower]
+//	J = 0
+//	g = -0.155
+//	[[spin]]                      # zero or more
+//	name = "N"
+//	I = 1
+//	g = 0.4038                    # in units of the magneton
+//	shielding = 0.0               # optional, default 0
+//	[[coupling]]                  # zero or more
+//	kind = "quadrupole"           # spin-rotation | spin-spin | spin-spin-tensor | quadrupole
+//	level = "upper"               # upper | lower | both
+//	spins = ["N"]                 # one name, or two for the spin-spin kinds
+//	value = "0.942 MHz"           # for quadrupole: the level's effective eQq_J
+//	source = "..."                # optional provenance, kept in Species.Notes
+//
+// The meaning and normalization of each coupling is that of package levels.
+// Errors are *Error values naming the file, line, key and what is allowed.
+package species
