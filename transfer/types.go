@@ -28,6 +28,11 @@ type Pump struct {
 	// Hyperfine (missing F labels get weight 1).
 	UpperF map[float64]float64
 	LowerF map[float64]float64
+	// LowerPump is the pump rate into each lower sublevel relative to the
+	// pump rate into each upper sublevel (dimensionless, default 0). With
+	// equal decay rates only the difference matters; it must stay below
+	// GammaLower/GammaUpper so the unsaturated line is inverted.
+	LowerPump float64
 }
 
 // Seed is the radiation entering the column at s = 0.
@@ -45,9 +50,13 @@ type Params struct {
 	Theta   float64 // angle between B and the line of sight, rad, [0, pi]
 	Chi     float64 // sky position angle of projected B, rad
 
-	Doppler  float64 // 1/e half-width of the thermal+turbulent profile, m/s
-	Channels int     // default 256
-	Span     float64 // total velocity span of the channel grid, m/s; 0 = automatic
+	Doppler float64 // 1/e half-width of the thermal+turbulent profile, m/s
+	// Temperature (K) and Turbulence (1/e half-width, m/s) give Doppler
+	// through DopplerWidth when Doppler is zero.
+	Temperature float64
+	Turbulence  float64
+	Channels    int     // default 256
+	Span        float64 // total velocity span of the channel grid, m/s; 0 = automatic
 
 	GammaUpper float64 // decay rate of upper eigenstates, s^-1
 	GammaLower float64 // decay rate of lower eigenstates, s^-1
@@ -57,6 +66,10 @@ type Params struct {
 	Seed Seed
 
 	ElectronDensity float64 // in-source free electrons for Faraday rotation, cm^-3 (0 = none)
+	// GainLength is the physical path (m) over which the unsaturated
+	// line-centre gain grows by one e-fold; it turns ElectronDensity into a
+	// Faraday rotation per unit gain. Required when ElectronDensity > 0.
+	GainLength float64
 
 	Saturation           float64 // stop when R/Gamma at line centre reaches this (default 1e4)
 	Gain                 float64 // or stop at this total unsaturated line-centre gain (used when > 0)
@@ -92,4 +105,9 @@ type Trajectory struct {
 	// GOmega is the Zeeman splitting in rate units (s^-1) used for validity.
 	GOmega   float64
 	Warnings []string
+	// SaturationTbdOmega is T_b dOmega (K sr) of a beam with R/Gamma = 1
+	// in the unsplit line: 4 pi h nu Gamma / (A k).
+	SaturationTbdOmega float64
+	// Steps and Rejected count accepted and rejected integration steps.
+	Steps, Rejected int
 }

@@ -1,0 +1,80 @@
+package transfer
+
+import (
+	"context"
+	"testing"
+
+	"maserpol/levels"
+	"maserpol/levels/species"
+)
+
+// BenchmarkJ10 runs the J=1-0 reference model (256 channels, seed to
+// R/Gamma = 1e4 with default checkpoints). Target: under 50 ms per run on
+// one core.
+func BenchmarkJ10(b *testing.B) {
+	benchJ10(b, 256)
+}
+
+func BenchmarkJ10Channels128(b *testing.B) { benchJ10(b, 128) }
+func BenchmarkJ10Channels256(b *testing.B) { benchJ10(b, 256) }
+func BenchmarkJ10Channels512(b *testing.B) { benchJ10(b, 512) }
+
+func benchJ10(b *testing.B, channels int) {
+	tr := j10Split(144, 10)
+	m, err := NewModel(tr, Params{Theta: deg(60), Doppler: 1000, GammaUpper: 0.01, GammaLower: 0.01, Channels: channels})
+	if err != nil {
+		b.Fatal(err)
+	}
+	ctx := context.Background()
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := m.Run(ctx); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkStep times one accepted integration step of the J=1-0 model in
+// the saturated regime; it must not allocate.
+func BenchmarkStep(b *testing.B) {
+	tr := j10Split(144, 10)
+	m, err := NewModel(tr, Params{Theta: deg(60), Doppler: 1000, GammaUpper: 0.01, GammaLower: 0.01})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, _, err := m.step(10, 0.1); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkSyntheticJ65 runs the synthetic J=6-5 hyperfine preset (104
+// upper and 88 lower sublevels, about 1700 lines at 1 G) with 256 channels
+// to R/Gamma = 1e3. Target: under 10 s.
+func BenchmarkSyntheticJ65(b *testing.B) {
+	sp, err := species.Preset("synthetic-j6-5")
+	if err != nil {
+		b.Fatal(err)
+	}
+	tr, err := levels.NewTransition(sp, 1)
+	if err != nil {
+		b.Fatal(err)
+	}
+	m, err := NewModel(tr, Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		tj, err := m.Run(context.Background())
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.ReportMetric(float64(tj.Steps), "steps")
+	}
+}

@@ -1,0 +1,125 @@
+// Package transfer computes the polarized radiation of a saturating maser:
+// the steady-state populations of every hyperfine-mixed Zeeman sublevel of
+// the transition (package levels) in every velocity class, coupled to a 1-D
+// integration of the Stokes vector along the column. One run follows the
+// emergent spectrum from the unsaturated regime into saturation and records
+// it at checkpoints spaced evenly in log saturation.
+//
+// # Use
+//
+//	p := transfer.Params{Species: sp, Field: 30, Theta: 60 * math.Pi / 180,
+//		Temperature: 1000}              // zero fields take their defaults
+//	tj, err := transfer.Run(ctx, p)     // solves levels.NewTransition(sp, 30)
+//
+// or, for many models of one species, solve the transitions with a
+// levels.TransitionSolver and call NewModel(tr, p) then Model.Run; a Model
+// owns its workspaces and can be run repeatedly.
+//
+// # Grid and profile
+//
+// Channels and velocity classes share one uniform grid of Params.Channels
+// points (default 256) in radio velocity, v = c (nu0 - nu)/nu0, relative to
+// the species rest frequency: higher frequency is lower velocity. The
+// automatic span covers every line component (hyperfine offsets and Zeeman
+// shifts) plus 4 Doppler widths on either side. The Doppler profile is
+// exp(-(v/v_D)^2), with v_D = sqrt(2kT/m + v_turb^2) the 1/e half-width
+// (FWHM = 2 sqrt(ln 2) v_D), see DopplerWidth. A molecule of class u meets
+// line ab (offset Delta_ab = nu_ab - nu0) in the channel at
+// v = u - c Delta_ab/nu0. Off-grid positions are reached with a 4-point
+// cubic B-spline kernel whose transpose carries the inversions back to the
+// channels; the kernel is positive and broadens every line alike (variance
+// dv^2/3), so it neither produces negative rates nor spurious V.
+//
+// # Polarization conventions
+//
+// Field frame: the reference direction is the sky projection of B; Q_f > 0
+// is linear polarization parallel to it (q_b = Q_f/I). Sky frame: position
+// angles are measured north through east (IAU); Q, U follow from Q_f, U_f by
+// a rotation through 2 chi_B, so chi_B -> chi_B + 90 deg flips Q and U.
+// The weights of a component with q = m_u - m_l are (physics.md section 3)
+//
+//	q = 0:   (w_I, w_Q, w_V) = (sin^2 theta/2, sin^2 theta/2, 0)
+//	q = +-1: (w_I, w_Q, w_V) = ((1+cos^2 theta)/4, -sin^2 theta/4, +-cos theta/2)
+//
+// times 3, so that the direction-averaged rate of an unpolarized beam on an
+// upper sublevel is the scalar one. The same weights build the stimulated
+// rates and the propagation matrix: the energy the beam gains equals the
+// energy the molecules give (tested to rounding).
+//
+// V = RCP - LCP (IAU 1973), RCP in the IEEE sense (counterclockwise as the
+// observer sees it, positive helicity). Field > 0 points along +k, towards
+// the observer, with Theta the angle between B and k (B_parallel = Field cos
+// Theta). A q = +1 component emitted along +B carries positive helicity, so
+// with B_parallel > 0 the sigma+ component is RCP. Hence V > 0 on the
+// high-frequency (low-velocity) wing when the sigma+ component lies at the
+// higher frequency and B_parallel > 0: with H_Z = -mu B g J_z (package
+// levels) that is g < 0 in nuclear magnetons (e.g. SiO), or B pointing away
+// from the observer for g > 0. In the weak field, thin line:
+// V(v) = cos(theta) dv_Z dI/dv, dv_Z = c SplitHzPerG B / nu0 (the sigma+
+// shift of levels.Component, in the sense of frequency).
+//
+// # Populations
+//
+// Steady state without coherences (physics.md section 4), per velocity class:
+//
+//	0 = lambda_a - Gamma_u n_a - sum_b R_ab (n_a - n_b)
+//	0 = lambda_b - Gamma_l n_b + sum_a R_ab (n_a - n_b)
+//
+// Rates are in units of the reference Gamma = 2 Gamma_u Gamma_l/(Gamma_u +
+// Gamma_l) (equal to both when equal; a two-level line then saturates as
+// 1/(1 + 2R/Gamma)). R_ab/Gamma = 3 S_ab (w_I I + w_Q Q_f + w_V V) with the
+// Stokes vector in units of the saturation intensity, the one whose rate in
+// the unsplit line is Gamma: R = A k T_b dOmega/(4 pi h nu), so one unit is
+// T_b dOmega = 4 pi h nu Gamma/(A k) (SaturationTbdOmega). The bipartite
+// system is reduced to the side with the cheaper solve (the other side is
+// diagonal) and solved by banded or dense Cholesky (gonum lapack64); the
+// reduced matrix is symmetric and strictly diagonally dominant.
+//
+// Pumping: lambda_a = lambda_u p_a phi(u), lambda_b = LowerPump lambda_u p_b
+// phi(u), with lambda_u = Gamma_u (unsaturated upper population 1 at the
+// profile centre). The weights p have mean 1 over the sublevels of each
+// level, so the total pump rate is fixed: Isotropic p = 1; Anisotropic
+// p = 1 + Alignment (3<m_J^2> - J(J+1))/N, N = max over m_J of
+// |3 m_J^2 - J(J+1)| (so p >= 0 for |Alignment| <= 1; positive favours
+// |m_J| = J); Hyperfine p proportional to the weight of the state's F label.
+//
+// # Transfer
+//
+// dS/ds = K S per channel (see Propagation), K from the inversions of every
+// line, with s in units of the unsaturated line-centre gain (the peak of the
+// unsaturated eta_I is 1; Checkpoint.Gain is s). Each step is exponential:
+// predictor exp(K0 h/2) S, populations there, S1 = exp(K_mid h) S, and the
+// populations at S1 give the next step's K0 (the warm start). The local error
+// is estimated from the trapezoidal exponential exp((K0+K1) h/2) S (an
+// embedded second-order pair) and held below Tolerance in ln I and in the
+// fractional polarizations; steps are also limited to a change of 1 in ln I
+// and of 0.2 in any inversion. A step that cannot meet the tolerance returns
+// a StepError naming the position and channel. In-source Faraday rotation is
+// RhoV = 2 FaradayCoefficient n_e B_parallel lambda^2 GainLength per unit s
+// (EVPA rotates at RhoV/2; B_parallel > 0 rotates counterclockwise, i.e.
+// positive rotation measure), and then the analytic operator with
+// magneto-optical terms is used.
+//
+// # Outputs and validity
+//
+// Checkpoints are placed at FirstCheckpoint x 10^(i/CheckpointsPerDecade)
+// up to Saturation (or up to the total Gain when Gain > 0, plus the final
+// state), where saturation is the largest R_ab/Gamma over lines in the class
+// at the profile centre. Spectra are brightness temperatures in K (T_b dOmega
+// divided by BeamSolid). The rate equations neglect Zeeman coherences,
+// valid for R << g Omega; g Omega is 2 pi times the smallest energy
+// separation (Hz) between two sublevels of one level that couple to a
+// common sublevel (for J=1-0 the sigma-pi splitting). Each checkpoint
+// carries R/(g Omega) = Saturation Gamma/(g Omega) and Valid = (<= 0.1);
+// Trajectory.Warnings says from where on it is exceeded. With zero field,
+// g Omega = 0 and every checkpoint is outside validity (R/gOmega = +Inf).
+//
+// # Defaults
+//
+// Channels 256, CheckpointsPerDecade 8, FirstCheckpoint 1e-3, Saturation
+// 1e4, Tolerance 1e-4 (project defaults); GammaUpper = GammaLower = 1 s^-1
+// (common practice, order of magnitude for SiO and H2O masers, from
+// memory); BeamSolid 1e-2 sr (common practice, from memory); Seed.Tb
+// 2.725 K (the cosmic microwave background, Fixsen 2009, from memory).
+// Doppler follows from Temperature and Turbulence when zero.
+package transfer

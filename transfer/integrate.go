@@ -1,0 +1,321 @@
+package transfer
+
+import (
+	"context"
+	"fmt"
+	"math"
+)
+
+// Step-control constants (common practice for embedded-pair control).
+const (
+	maxDLnI      = 1.0  // largest change of ln I in any channel per step
+	maxDPop      = 0.2  // largest change of an inversion per step, units of the unsaturated central inversion
+	checkpointEp = 1e-3 // relative precision with which checkpoints hit their saturation level
+	ctxEvery     = 8    // steps between context checks
+	maxSteps     = 1 << 20
+)
+
+// advance sets dst = exp(K h) src channel by channel with K from
+// (eI, eQ, eV) and the Faraday term.
+func (m *Model) advance(dst, src *[4][]float64, eI, eQ, eV []float64, h float64) {
+	rv := m.rhoV
+	for k := 0; k < m.n; k++ {
+		x := [4]float64{src[0][k], src[1][k], src[2][k], src[3][k]}
+		var y [4]float64
+		if rv == 0 {
+			y = applyNoRho(eI[k], eQ[k], 0, eV[k], h, x)
+		} else {
+			y = applyGeneral(Propagation{EtaI: eI[k], EtaQ: eQ[k], EtaV: eV[k], RhoV: rv}, h, x)
+		}
+		dst[0][k], dst[1][k], dst[2][k], dst[3][k] = y[0], y[1], y[2], y[3]
+	}
+}
+
+// step advances m.cur by h into m.end with the exponential midpoint rule:
+// predictor exp(K0 h/2) S0, populations there, then S1 = exp(K_mid h) S0 and
+// the populations at S1 (the next step's K0). The error estimate compares
+// S1 with the trapezoidal exponential exp((K0+K1)/2 h) S0, both second
+// order, and adds the step limits on ln I and on the populations. It
+// returns the error in units of the allowed one and the worst channel.
+func (m *Model) step(pos, h float64) (float64, int, error) {
+	c, md, e := m.cur, m.mid, m.end
+	m.advance(&md.st, &c.st, c.eI, c.eQ, c.eV, h/2)
+	if err := m.populate(md, pos+h/2); err != nil {
+		return 0, 0, err
+	}
+	m.advance(&e.st, &c.st, md.eI, md.eQ, md.eV, h)
+	if err := m.populate(e, pos+h); err != nil {
+		return 0, 0, err
+	}
+	tol := m.p.Tolerance
+	worst, wk := 0.0, 0
+	rv := m.rhoV
+	for k := 0; k < m.n; k++ {
+		x := [4]float64{c.st[0][k], c.st[1][k], c.st[2][k], c.st[3][k]}
+		kt := Propagation{EtaI: (c.eI[k] + e.eI[k]) / 2, EtaQ: (c.eQ[k] + e.eQ[k]) / 2, EtaV: (c.eV[k] + e.eV[k]) / 2, RhoV: rv}
+		var t [4]float64
+		if rv == 0 {
+			t = applyNoRho(kt.EtaI, kt.EtaQ, 0, kt.EtaV, h, x)
+		} else {
+			t = applyGeneral(kt, h, x)
+		}
+		i1 := e.st[0][k]
+		if !(i1 > 0) || !(t[0] > 0) || math.IsInf(i1, 0) {
+			return math.Inf(1), k, nil
+		}
+		err := math.Abs(math.Log(i1 / t[0]))
+		for s := 1; s < 4; s++ {
+			err = math.Max(err, math.Abs(e.st[s][k]/i1-t[s]/t[0]))
+		}
+		// For commuting K the midpoint error is a third of its difference
+		// from the trapezoidal result (-h^3/24 against +h^3/12 K'').
+		err /= 3 * tol
+		err = math.Max(err, math.Abs(math.Log(i1/x[0]))/maxDLnI)
+		if err > worst {
+			worst, wk = err, k
+		}
+	}
+	// Population change, relative to the unsaturated central inversion (1).
+	dp := 0.0
+	for i, d := range e.dn {
+		d -= c.dn[i]
+		if d > dp {
+			dp = d
+		} else if -d > dp {
+			dp = -d
+		}
+	}
+	worst = math.Max(worst, dp/maxDPop)
+	if math.IsNaN(worst) {
+		worst = math.Inf(1)
+	}
+	return worst, wk, nil
+}
+
+// Run integrates the column from the seed until the saturation target (or
+// the total gain Params.Gain when set), recording checkpoints.
+func (m *Model) Run(ctx context.Context) (*Trajectory, error) {
+	p := &m.p
+	m.steps, m.rej, m.clamped = 0, 0, 0
+	tr := &Trajectory{
+		Velocity:           append([]float64(nil), m.v...),
+		GOmega:             m.gOmega,
+		SaturationTbdOmega: m.tsat,
+		Warnings:           append([]string(nil), m.warnings...),
+	}
+	// Start: the seed in every channel, populations consistent with it.
+	for s := 0; s < 4; s++ {
+		for k := range m.cur.st[s] {
+			m.cur.st[s][k] = m.seed[s]
+		}
+	}
+	if err := m.populate(m.cur, 0); err != nil {
+		return nil, err
+	}
+	// Checkpoint levels, evenly spaced in log saturation.
+	targets := m.targets(m.cur.sat)
+	if len(targets) > 0 && m.cur.sat > p.FirstCheckpoint {
+		tr.Warnings = append(tr.Warnings, fmt.Sprintf("seed already saturates the line to R/Gamma = %.3g above the first checkpoint %.3g: lower checkpoints are skipped", m.cur.sat, p.FirstCheckpoint))
+	}
+	ti := 0
+	pos := 0.0
+	peak := 0.0
+	for _, e := range m.cur.eI {
+		peak = math.Max(peak, e)
+	}
+	slope := math.Max(peak, 1e-3) // d ln(sat)/ds, first guess: unsaturated peak gain
+	h := 0.5 / math.Max(peak, 1e-3)
+	maxGain := maxGainDefault
+	if p.Gain > 0 {
+		maxGain = p.Gain
+	}
+	hmin := 1e-12
+	for it := 0; ; it++ {
+		if it%ctxEvery == 0 {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+		}
+		if it > maxSteps {
+			return nil, &StepError{Position: pos, Channel: m.peakChannel(), Velocity: m.v[m.peakChannel()], Msg: fmt.Sprintf("no convergence after %d steps", maxSteps)}
+		}
+		if p.Gain == 0 && ti >= len(targets) {
+			break
+		}
+		if pos >= maxGain*(1-1e-12) {
+			if p.Gain > 0 {
+				break
+			}
+			return nil, &StepError{Position: pos, Channel: m.peakChannel(), Velocity: m.v[m.peakChannel()],
+				Msg: fmt.Sprintf("saturation R/Gamma = %.3g has not reached the target %.3g", m.cur.sat, p.Saturation)}
+		}
+		hs := math.Min(h, maxGain-pos)
+		aiming := false
+		if ti < len(targets) && slope > 0 {
+			if hit := math.Log(targets[ti]/m.cur.sat) / slope; hit < hs {
+				hs, aiming = math.Max(hit, hmin), true
+			}
+		}
+		err, wk, serr := m.step(pos, hs)
+		if serr != nil {
+			return nil, serr
+		}
+		if err > 1 {
+			m.rej++
+			h = hs * math.Max(0.1, 0.9*math.Pow(err, -1.0/3))
+			if h < hmin*math.Max(1, pos) {
+				return nil, &StepError{Position: pos, Channel: wk, Velocity: m.v[wk],
+					Msg: fmt.Sprintf("step size %.3g cannot meet the tolerance %.3g", h, p.Tolerance)}
+			}
+			continue
+		}
+		// A step that jumps over a checkpoint level is redone shorter
+		// (secant in log saturation) so the level is hit.
+		if ti < len(targets) && m.end.sat > targets[ti]*(1+checkpointEp) && m.end.sat > m.cur.sat {
+			ls := math.Log(m.end.sat/m.cur.sat) / hs
+			slope = ls
+			if ls > 0 && m.rej < maxSteps {
+				m.rej++
+				h = hs
+				continue
+			}
+		}
+		if hs > 0 && m.end.sat > 0 && m.cur.sat > 0 {
+			if ls := math.Log(m.end.sat/m.cur.sat) / hs; ls > 0 {
+				slope = ls
+			}
+		}
+		m.cur, m.end = m.end, m.cur
+		pos += hs
+		m.steps++
+		for ti < len(targets) && m.cur.sat >= targets[ti]*(1-checkpointEp) {
+			tr.Checkpoints = append(tr.Checkpoints, m.checkpoint(pos))
+			ti++
+		}
+		grow := 5.0
+		if err > 0 {
+			grow = math.Min(grow, 0.9*math.Pow(err, -1.0/3))
+		}
+		h = math.Max(h, hs) * math.Max(grow, 0.2)
+		if aiming {
+			h = math.Max(h, hs)
+		}
+	}
+	if p.Gain > 0 {
+		if n := len(tr.Checkpoints); n == 0 || tr.Checkpoints[n-1].Gain != pos {
+			tr.Checkpoints = append(tr.Checkpoints, m.checkpoint(pos))
+		}
+	}
+	tr.Steps, tr.Rejected = m.steps, m.rej
+	if m.clamped > 0 {
+		tr.Warnings = append(tr.Warnings, fmt.Sprintf(
+			"the channel grid under-resolves the line (%.2g channels per Doppler width): interpolated stimulated rates went negative %d times and were set to zero, so energy is conserved only approximately; use more channels",
+			m.p.Doppler/m.dv, m.clamped))
+	}
+	m.validityWarnings(tr)
+	return tr, nil
+}
+
+// targets returns the checkpoint saturation levels above start.
+func (m *Model) targets(start float64) []float64 {
+	p := &m.p
+	var t []float64
+	top := p.Saturation
+	if p.Gain > 0 {
+		top = math.Inf(1)
+	}
+	for i := 0; ; i++ {
+		v := p.FirstCheckpoint * math.Pow(10, float64(i)/float64(p.CheckpointsPerDecade))
+		if v > top*(1+1e-9) || i > 100*p.CheckpointsPerDecade {
+			break
+		}
+		if v > start {
+			t = append(t, v)
+		}
+	}
+	if p.Gain == 0 && (len(t) == 0 || t[len(t)-1] < p.Saturation*(1-1e-9)) {
+		t = append(t, p.Saturation)
+	}
+	return t
+}
+
+func (m *Model) peakChannel() int {
+	k0, best := 0, math.Inf(-1)
+	for k, v := range m.cur.st[0] {
+		if v > best {
+			k0, best = k, v
+		}
+	}
+	return k0
+}
+
+// checkpoint records the emergent spectrum of m.cur (physics.md section 6).
+func (m *Model) checkpoint(pos float64) Checkpoint {
+	p := &m.p
+	n := m.n
+	toK := m.tsat / p.BeamSolid
+	c2, s2 := math.Cos(2*p.Chi), math.Sin(2*p.Chi)
+	cp := Checkpoint{
+		Saturation: m.cur.sat,
+		Gain:       pos,
+		I:          make([]float64, n),
+		Q:          make([]float64, n),
+		U:          make([]float64, n),
+		V:          make([]float64, n),
+	}
+	st := &m.cur.st
+	for k := 0; k < n; k++ {
+		qf, uf := st[1][k], st[2][k]
+		cp.I[k] = toK * st[0][k]
+		cp.Q[k] = toK * (qf*c2 - uf*s2)
+		cp.U[k] = toK * (qf*s2 + uf*c2)
+		cp.V[k] = toK * st[3][k]
+	}
+	kp := m.peakChannel()
+	ip := st[0][kp]
+	cp.IPeak = cp.I[kp]
+	cp.TbdOmega = ip * m.tsat
+	cp.Ml = math.Hypot(st[1][kp], st[2][kp]) / ip
+	cp.Qb = st[1][kp] / ip
+	cp.VIPeak = st[3][kp] / ip
+	cp.EVPA = 0.5 * math.Atan2(cp.U[kp], cp.Q[kp])
+	vmax, vmin := math.Inf(-1), math.Inf(1)
+	for _, v := range st[3] {
+		vmax, vmin = math.Max(vmax, v), math.Min(vmin, v)
+	}
+	cp.PV = (vmax - vmin) / ip
+	// Intensity-weighted m_l over the channels above half of the line's
+	// peak above the seed background.
+	bg := m.seed[0]
+	half := bg + 0.5*(ip-bg)
+	var sw, sm float64
+	for k := 0; k < n; k++ {
+		if i := st[0][k]; i >= half && i > bg {
+			w := i - bg
+			sw += w
+			sm += w * math.Hypot(st[1][k], st[2][k]) / i
+		}
+	}
+	cp.MlInt = cp.Ml
+	if sw > 0 {
+		cp.MlInt = sm / sw
+	}
+	cp.RoverGOmega = m.cur.sat * m.gamma / m.gOmega
+	cp.Valid = cp.RoverGOmega <= 0.1
+	return cp
+}
+
+func (m *Model) validityWarnings(tr *Trajectory) {
+	if m.gOmega == 0 {
+		tr.Warnings = append(tr.Warnings, "zero Zeeman splitting (g Omega = 0): the populations-only model is outside its validity (R/gOmega infinite) at every checkpoint")
+		return
+	}
+	for _, cp := range tr.Checkpoints {
+		if !cp.Valid {
+			tr.Warnings = append(tr.Warnings, fmt.Sprintf(
+				"R/gOmega = %.3g exceeds 0.1 from saturation R/Gamma = %.3g on (g Omega = %.3g s^-1): Zeeman coherences neglected by the rate equations matter there",
+				cp.RoverGOmega, cp.Saturation, m.gOmega))
+			return
+		}
+	}
+}

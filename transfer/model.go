@@ -1,0 +1,473 @@
+package transfer
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/unit/constant"
+
+	"maserpol/levels"
+)
+
+// line is one allowed component with its coupling to the shared grid
+// precomputed: velocity class j interacts with the channel at fractional
+// position j + i0 + f through the 4-point cubic B-spline weights w[t+1] on
+// channels j+i0+t, t = -1..2. The transfer uses the transpose of the same
+// weights (the same kernel at the mirrored position), which is what makes
+// the energy the beam gains equal the energy the molecules give.
+//
+// Why this kernel: its weights are positive (a physical Stokes vector stays
+// physical, rates stay >= 0 even across the steep exponential wings of an
+// amplified line), and its second moment is h^2/3 for every fraction f, so
+// it acts as the same slight broadening (variance dv^2/3) of every line.
+// Linear interpolation has an f-dependent error f(1-f) dv^2/2 phi” that
+// differs between the sigma+ and sigma- lines of hyperfine components and
+// shows as spurious V; Lagrange cubics ring negative in steep wings.
+type line struct {
+	up, lo int
+	q      int     // m_u - m_l
+	s      float64 // strength S_ab
+	offset float64 // Hz
+	i0     int
+	f      float64
+	w      [4]float64
+	ci     int // channel of the u = 0 class (line centre), with fraction cf
+	cf     float64
+}
+
+// bspline4 returns the cubic B-spline weights B3(t - f) at fraction f of
+// the nodes t = -1, 0, 1, 2 (sum 1, all positive, mean f, variance 1/3).
+func bspline4(f float64) [4]float64 {
+	g := 1 - f
+	return [4]float64{
+		g * g * g / 6,
+		(4 - 6*f*f + 3*f*f*f) / 6,
+		(4 - 6*g*g + 3*g*g*g) / 6,
+		f * f * f / 6,
+	}
+}
+
+// state is the radiation and the populations at one point of the column.
+type state struct {
+	st         [4][]float64 // I, Q_f, U_f, V per channel, units of the saturation intensity
+	dn         []float64    // inversions, line-major, padded by Model.pad on each side
+	eI, eQ, eV []float64    // propagation per channel
+	sat        float64      // max over lines of R/Gamma at line centre
+}
+
+// Model is a saturating polarized maser column for one transition and one
+// set of parameters. It owns all workspaces: Run may be called repeatedly
+// and the integration itself does not allocate.
+type Model struct {
+	p  Params
+	tr *levels.Transition
+
+	n      int
+	v      []float64 // channel and velocity-class grid, m/s
+	dv     float64
+	phi    []float64
+	jlo    int // active velocity classes [jlo, jhi)
+	jhi    int
+	pad    int
+	stride int // n + 2 pad
+
+	lines []line
+	byQ   [3][]int
+	w     [3][3]float64 // 3 x (w_I, w_Q, w_V) by q+1 (physics.md section 3)
+
+	rs       *rateSolver
+	gamma    float64 // reference decay rate, s^-1
+	kappa    float64 // gain normalization: unsaturated peak EtaI = 1
+	rhoV     float64 // Faraday rotation per unit gain
+	seed     [4]float64
+	tsat     float64 // T_b dOmega (K sr) per unit intensity
+	gOmega   float64 // s^-1
+	warnings []string
+
+	cur, mid, end *state
+	y             [3][]float64 // 3 w.S per channel by q+1, padded
+	r             []float64    // rates of one class
+	dnl           []float64    // inversions of one class
+	d             [3][]float64 // per-q inversion sums per channel
+	steps, rej    int
+	clamped       int // interpolated rates below zero (under-resolved spectrum)
+}
+
+// NewModel builds a Model for the already-solved transition tr. p.Species
+// and p.Field may be left zero; they are taken from tr. Defaults are
+// applied to a copy of p, then validated.
+func NewModel(tr *levels.Transition, p Params) (*Model, error) {
+	if tr == nil {
+		return nil, errors.New("transfer: nil Transition")
+	}
+	if p.Species == nil {
+		p.Species = tr.Species
+	}
+	if p.Field == 0 {
+		p.Field = tr.Field
+	} else if p.Field != tr.Field {
+		return nil, fmt.Errorf("transfer: Params.Field = %g G differs from the transition's field %g G", p.Field, tr.Field)
+	}
+	if err := validateSpecies(p.Species); err != nil {
+		return nil, err
+	}
+	p.Defaults()
+	if err := p.Validate(); err != nil {
+		return nil, err
+	}
+	if tr.Upper == nil || tr.Lower == nil || len(tr.Upper.States) == 0 || len(tr.Lower.States) == 0 {
+		return nil, fmt.Errorf("transfer: species %q: transition has no level structure", p.Species.Name)
+	}
+	m := &Model{p: p, tr: tr, n: p.Channels}
+	if err := m.setup(); err != nil {
+		return nil, err
+	}
+	return m, nil
+}
+
+// Params returns the parameters of the model with defaults filled in.
+func (m *Model) Params() Params { return m.p }
+
+// Velocity returns the channel grid (m/s, radio convention); the model owns it.
+func (m *Model) Velocity() []float64 { return m.v }
+
+// GOmega returns the Zeeman splitting in rate units, s^-1 (see doc.go).
+func (m *Model) GOmega() float64 { return m.gOmega }
+
+func (m *Model) warnf(format string, args ...any) {
+	m.warnings = append(m.warnings, fmt.Sprintf(format, args...))
+}
+
+func (m *Model) setup() error {
+	p := &m.p
+	sp := p.Species
+	c := float64(constant.LightSpeedInVacuum)
+	nu0 := sp.Frequency
+
+	// Lines with non-negligible strength.
+	maxS := 0.0
+	for _, l := range m.tr.Lines {
+		maxS = math.Max(maxS, l.Strength)
+	}
+	if !(maxS > 0) {
+		return fmt.Errorf("transfer: species %q at %g G has no allowed transition", sp.Name, p.Field)
+	}
+	nU, nL := len(m.tr.Upper.States), len(m.tr.Lower.States)
+	vmin, vmax := math.Inf(1), math.Inf(-1)
+	for _, l := range m.tr.Lines {
+		if !(l.Strength > 1e-12*maxS) {
+			continue
+		}
+		if l.Q < -1 || l.Q > 1 || l.Upper < 0 || l.Upper >= nU || l.Lower < 0 || l.Lower >= nL {
+			return fmt.Errorf("transfer: species %q: malformed line %+v", sp.Name, l)
+		}
+		if math.IsNaN(l.Offset) || math.IsInf(l.Offset, 0) || math.IsNaN(l.Strength) {
+			return fmt.Errorf("transfer: species %q: non-finite line %+v", sp.Name, l)
+		}
+		m.lines = append(m.lines, line{up: l.Upper, lo: l.Lower, q: l.Q, s: l.Strength, offset: l.Offset})
+		vl := -c * l.Offset / nu0 // radio convention: higher frequency, lower velocity
+		vmin, vmax = math.Min(vmin, vl), math.Max(vmax, vl)
+	}
+
+	// Grid.
+	vd := p.Doppler
+	var lo, hi float64
+	if p.Span == 0 {
+		lo, hi = vmin-spanDopplers*vd, vmax+spanDopplers*vd
+	} else {
+		mid := (vmin + vmax) / 2
+		lo, hi = mid-p.Span/2, mid+p.Span/2
+		if vmin-2*vd < lo || vmax+2*vd > hi {
+			m.warnf("channel span %.4g km/s does not cover the lines (%.4g to %.4g km/s) plus 2 Doppler widths: emission outside the grid is lost",
+				p.Span/1e3, vmin/1e3, vmax/1e3)
+		}
+	}
+	m.dv = (hi - lo) / float64(m.n-1)
+	if vd/m.dv < 4 {
+		m.warnf("only %.2g channels per Doppler width (%.4g km/s); results may be unresolved (use more channels)", vd/m.dv, vd/1e3)
+	}
+	m.v = make([]float64, m.n)
+	m.phi = make([]float64, m.n)
+	m.jlo, m.jhi = m.n, 0
+	for k := range m.v {
+		m.v[k] = lo + float64(k)*m.dv
+		x := m.v[k] / vd
+		m.phi[k] = math.Exp(-x * x)
+		// Classes below 1e-14 of the peak contribute nothing measurable.
+		if m.phi[k] > 1e-14 {
+			m.jlo = min(m.jlo, k)
+			m.jhi = max(m.jhi, k+1)
+		}
+	}
+	if m.jhi <= m.jlo {
+		return fmt.Errorf("transfer: channel grid %.4g to %.4g km/s does not contain the Doppler profile (v_D = %.4g km/s)", lo/1e3, hi/1e3, vd/1e3)
+	}
+
+	// Line couplings on the grid; drop lines that never meet the grid.
+	jc := -lo / m.dv
+	maxI0 := 0
+	kept := m.lines[:0]
+	dropped := 0
+	for _, l := range m.lines {
+		sigma := c * l.offset / (nu0 * m.dv)
+		l.i0 = int(math.Floor(-sigma))
+		l.f = -sigma - float64(l.i0)
+		l.w = bspline4(l.f)
+		if l.i0 > m.n+1 || l.i0 < -m.n-1 {
+			dropped++
+			continue
+		}
+		xc := jc - sigma
+		l.ci = int(math.Floor(xc))
+		l.cf = xc - float64(l.ci)
+		maxI0 = max(maxI0, abs(l.i0))
+		kept = append(kept, l)
+	}
+	m.lines = kept
+	if dropped > 0 {
+		m.warnf("%d line components lie outside the channel grid and are ignored", dropped)
+	}
+	if len(m.lines) == 0 {
+		return fmt.Errorf("transfer: species %q: no allowed transition falls on the channel grid", sp.Name)
+	}
+	m.pad = maxI0 + 3
+	m.stride = m.n + 2*m.pad
+	for i, l := range m.lines {
+		m.byQ[l.q+1] = append(m.byQ[l.q+1], i)
+	}
+
+	// Polarization weights (physics.md section 3), times 3 so that the
+	// direction-averaged unpolarized rate of an upper state is the scalar
+	// one: <w_I> = 1/3 for every q.
+	st, ct := math.Sin(p.Theta), math.Cos(p.Theta)
+	s2, c2 := st*st, ct*ct
+	m.w[1] = [3]float64{3 * s2 / 2, 3 * s2 / 2, 0}
+	m.w[2] = [3]float64{3 * (1 + c2) / 4, -3 * s2 / 4, 3 * ct / 2}
+	m.w[0] = [3]float64{3 * (1 + c2) / 4, -3 * s2 / 4, -3 * ct / 2}
+
+	// Rates in units of the reference Gamma: the harmonic mean, so that a
+	// two-level line saturates as 1/(1 + 2R/Gamma) for any Gamma_u, Gamma_l.
+	m.gamma = 2 * p.GammaUpper * p.GammaLower / (p.GammaUpper + p.GammaLower)
+	gU, gL := p.GammaUpper/m.gamma, p.GammaLower/m.gamma
+	wU, err := pumpWeights(p.Pump, m.tr.Upper, p.Pump.UpperF)
+	if err != nil {
+		return err
+	}
+	wL, err := pumpWeights(p.Pump, m.tr.Lower, p.Pump.LowerF)
+	if err != nil {
+		return err
+	}
+	for i := range wU {
+		wU[i] *= gU
+	}
+	for i := range wL {
+		wL[i] *= p.Pump.LowerPump * gU
+	}
+	m.rs = newRateSolver(nU, nL, m.lines, gU, gL, wU, wL)
+
+	// Physical scales.
+	m.tsat = SaturationTbdOmega(nu0, sp.EinsteinA, m.gamma)
+	sj := p.Seed.Tb * p.BeamSolid / m.tsat
+	psi := p.Seed.Angle - p.Chi // seed angle in the field frame
+	m.seed = [4]float64{sj, sj * p.Seed.LinearFraction * math.Cos(2*psi), sj * p.Seed.LinearFraction * math.Sin(2*psi), sj * p.Seed.CircularFraction}
+	if p.ElectronDensity > 0 {
+		lambda := c / nu0
+		bpar := p.Field * 1e-4 * ct // tesla along +k
+		m.rhoV = 2 * FaradayCoefficient * p.ElectronDensity * 1e6 * bpar * lambda * lambda * p.GainLength
+	}
+	m.gOmega = m.zeemanRate()
+	if sp.Unverified {
+		m.warnf("species %q has unverified constants", sp.Name)
+	}
+
+	// Workspaces.
+	m.cur, m.mid, m.end = m.newState(), m.newState(), m.newState()
+	for q := range m.y {
+		m.y[q] = make([]float64, m.stride)
+		m.d[q] = make([]float64, m.n)
+	}
+	m.r = make([]float64, len(m.lines))
+	m.dnl = make([]float64, len(m.lines))
+
+	// Gain normalization from the unsaturated populations.
+	m.kappa = 1
+	if err := m.populate(m.cur, 0); err != nil {
+		return err
+	}
+	peak := 0.0
+	for _, e := range m.cur.eI {
+		peak = math.Max(peak, e)
+	}
+	if !(peak > 0) {
+		return fmt.Errorf("transfer: species %q: the pump gives no inversion (peak unsaturated gain %g)", sp.Name, peak)
+	}
+	m.kappa = 1 / peak
+	m.buildK(m.cur)
+	return nil
+}
+
+func abs(i int) int {
+	if i < 0 {
+		return -i
+	}
+	return i
+}
+
+func (m *Model) newState() *state {
+	s := &state{dn: make([]float64, len(m.lines)*m.stride)}
+	for i := range s.st {
+		s.st[i] = make([]float64, m.n)
+	}
+	s.eI, s.eQ, s.eV = make([]float64, m.n), make([]float64, m.n), make([]float64, m.n)
+	return s
+}
+
+// zeemanRate returns g Omega (s^-1): 2 pi times the smallest energy
+// separation (Hz) between two sublevels of the same rotational level that
+// are radiatively coupled to a common sublevel of the other level (lines
+// above 1e-3 of the strongest). Coherence between such a pair is what the
+// populations-only rate equations neglect; for J=1-0 this is the splitting
+// between the pi and sigma components.
+func (m *Model) zeemanRate() float64 {
+	maxS := 0.0
+	for _, l := range m.lines {
+		maxS = math.Max(maxS, l.s)
+	}
+	up, lo := m.tr.Upper.States, m.tr.Lower.States
+	minSep := math.Inf(1)
+	byLo := make(map[int][]int)
+	byUp := make(map[int][]int)
+	for _, l := range m.lines {
+		if l.s < 1e-3*maxS {
+			continue
+		}
+		byLo[l.lo] = append(byLo[l.lo], l.up)
+		byUp[l.up] = append(byUp[l.up], l.lo)
+	}
+	scan := func(groups map[int][]int, states []levels.State) {
+		for _, g := range groups {
+			for i := range g {
+				for j := i + 1; j < len(g); j++ {
+					minSep = math.Min(minSep, math.Abs(states[g[i]].Energy-states[g[j]].Energy))
+				}
+			}
+		}
+	}
+	scan(byLo, up)
+	scan(byUp, lo)
+	if math.IsInf(minSep, 1) {
+		// No pair of coupled sublevels (e.g. J=1/2-1/2 without spins): no
+		// coherence to neglect.
+		return math.Inf(1)
+	}
+	return 2 * math.Pi * minSep
+}
+
+// populate solves the rate equations of every velocity class for the
+// radiation st.st, then builds the propagation matrix of every channel and
+// the saturation measure. pos is the position along the column, for errors.
+func (m *Model) populate(st *state, pos float64) error {
+	n, pad := m.n, m.pad
+	// Weighted Stokes per q: y_q = 3 (w_I I + w_Q Q_f + w_V V). Beyond the
+	// grid the radiation is the seed (the grid extends past the last line
+	// by spanDopplers Doppler widths): a smooth continuation, so the cubic
+	// interpolation does not ring at the edges.
+	for q := 0; q < 3; q++ {
+		w := m.w[q]
+		y := m.y[q][pad : pad+n]
+		I, Q, V := st.st[0][:n], st.st[1][:n], st.st[3][:n]
+		for k := range y {
+			y[k] = w[0]*I[k] + w[1]*Q[k] + w[2]*V[k]
+		}
+		ys := w[0]*m.seed[0] + w[1]*m.seed[1] + w[2]*m.seed[3]
+		for k := 0; k < pad; k++ {
+			m.y[q][k] = ys
+			m.y[q][pad+n+k] = ys
+		}
+	}
+	// Saturation at line centre.
+	st.sat = 0
+	for _, l := range m.lines {
+		st.sat = math.Max(st.sat, l.s*m.interpY(l.q+1, l.ci, l.cf))
+	}
+	// Populations, class by class.
+	r, dnl := m.r, m.dnl
+	for j := m.jlo; j < m.jhi; j++ {
+		for i := range m.lines {
+			l := &m.lines[i]
+			y := m.y[l.q+1]
+			k := j + l.i0 + pad
+			rl := l.s * (l.w[0]*y[k-1] + l.w[1]*y[k] + l.w[2]*y[k+1] + l.w[3]*y[k+2])
+			if rl < 0 { // rounding of a fully polarized beam, or overshoot in a steep wing
+				if rl < -1e-12*l.s*y[k] {
+					m.clamped++
+				}
+				rl = 0
+			}
+			r[i] = rl
+		}
+		if err := m.rs.solve(r, m.phi[j], dnl); err != nil {
+			return &StepError{Position: pos, Channel: j, Velocity: m.v[j], Msg: "population solve failed: " + err.Error()}
+		}
+		for i, d := range dnl {
+			st.dn[i*m.stride+pad+j] = d
+		}
+	}
+	m.buildK(st)
+	return nil
+}
+
+// interpY interpolates the weighted Stokes y_q linearly at channel
+// position k + f (the seed beyond the grid).
+func (m *Model) interpY(q, k int, f float64) float64 {
+	get := func(k int) float64 {
+		k = max(-m.pad, min(k, m.n+m.pad-1))
+		return m.y[q][k+m.pad]
+	}
+	return (1-f)*get(k) + f*get(k+1)
+}
+
+// buildK sums the inversions of every line onto the channels it amplifies
+// (the transpose of the rate interpolation) and forms EtaI, EtaQ, EtaV.
+func (m *Model) buildK(st *state) {
+	n, pad := m.n, m.pad
+	for q := 0; q < 3; q++ {
+		d := m.d[q]
+		for k := range d {
+			d[k] = 0
+		}
+		for _, i := range m.byQ[q] {
+			l := &m.lines[i]
+			// Channel k takes class k - i0 - t with weight w[t+1].
+			base := i*m.stride + pad - l.i0
+			dn := st.dn[base-2 : base+n+1]
+			w0, w1, w2, w3 := l.s*l.w[0], l.s*l.w[1], l.s*l.w[2], l.s*l.w[3]
+			for k := range d {
+				// dn[k+2] is class k - i0; dn[k+3] is t = -1, dn[k] is t = 2.
+				d[k] += w0*dn[k+3] + w1*dn[k+2] + w2*dn[k+1] + w3*dn[k]
+			}
+		}
+	}
+	kap := m.kappa
+	for k := 0; k < n; k++ {
+		d0, d1, d2 := m.d[0][k], m.d[1][k], m.d[2][k]
+		st.eI[k] = kap * (m.w[0][0]*d0 + m.w[1][0]*d1 + m.w[2][0]*d2)
+		st.eQ[k] = kap * (m.w[0][1]*d0 + m.w[1][1]*d1 + m.w[2][1]*d2)
+		st.eV[k] = kap * (m.w[0][2]*d0 + m.w[1][2]*d1 + m.w[2][2]*d2)
+	}
+}
+
+// StepError reports a failure of the integration: where along the column
+// (in units of unsaturated line-centre gain) and in which channel.
+type StepError struct {
+	Position float64 // unsaturated line-centre gain reached
+	Channel  int
+	Velocity float64 // m/s
+	Msg      string
+}
+
+func (e *StepError) Error() string {
+	return fmt.Sprintf("transfer: at gain %.6g along the column, channel %d (v = %.4g km/s): %s",
+		e.Position, e.Channel, e.Velocity/1e3, e.Msg)
+}

@@ -1,0 +1,332 @@
+package transfer
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
+
+	"maserpol/levels"
+)
+
+// This file holds the steady-state population rate equations of
+// physics.md section 4 for one velocity class:
+//
+//	0 = pi_a - g_u n_a - sum_b R_ab (n_a - n_b)   (upper eigenstates a)
+//	0 = pi_b - g_l n_b + sum_a R_ab (n_a - n_b)   (lower eigenstates b)
+//
+// with every rate in units of the reference decay rate Gamma (see
+// Model.gamma) and the populations in units of the unsaturated upper
+// population at the centre of the Doppler profile. The system is bipartite:
+// the larger side is eliminated (its block is diagonal), leaving a
+// symmetric, strictly diagonally dominant and hence positive-definite
+// system on the smaller side, solved by Cholesky (gonum lapack64).
+//
+// Each class is solved directly, so the result does not depend on a
+// starting guess; the populations carried over from the previous step
+// (warm start) give the propagation matrix at the start of the next step
+// without a new solve.
+
+// rateSolver solves the rate equations of one velocity class. It owns its
+// workspaces; solve does not allocate.
+type rateSolver struct {
+	nK, nE    int  // kept and eliminated side sizes
+	keepUpper bool // whether the kept side is the upper level
+	gK, gE    float64
+	pK, pE    []float64 // pump rate / Gamma per state at the profile centre
+
+	// Lines by side: kOf[l], eOf[l] give the kept and eliminated state of line l.
+	kOf, eOf []int
+	// Lines grouped by eliminated state: eLines[eOff[e]:eOff[e+1]], and the
+	// pairs of lines sharing e with the storage index of their Schur
+	// complement entry: pairs[pOff[e]:pOff[e+1]].
+	eOff, eLines []int
+	pOff         []int
+	pairs        []linePair
+
+	// The kept matrix is stored as the upper triangle, banded (states are
+	// ordered by M and lines change M by at most 1, so kept states couple
+	// only within a band) or dense when the band is not narrow.
+	band bool
+	kd   int // super-diagonals when banded
+	diag []int
+	a    []float64
+	x    []float64 // kept populations
+	dE   []float64 // eliminated diagonal
+	nEv  []float64 // eliminated populations
+	sym  blas64.Symmetric
+	sb   blas64.SymmetricBand
+	rhs  blas64.General
+}
+
+type linePair struct{ l1, l2, idx int }
+
+// solverCost estimates the flops of one class solve keeping the side whose
+// state of each line is given by kOf (eliminating eOf).
+func solverCost(nK, nE int, kOf, eOf []int) (cost float64, kd int) {
+	deg := make([]int, nE)
+	lines := make([][]int, nE)
+	for l, e := range eOf {
+		deg[e]++
+		lines[e] = append(lines[e], kOf[l])
+	}
+	for _, ks := range lines {
+		for i := range ks {
+			for j := range ks {
+				kd = max(kd, abs(ks[i]-ks[j]))
+			}
+		}
+	}
+	for _, d := range deg {
+		cost += float64(d * (d + 1) / 2)
+	}
+	if nK > 8 && kd < 32 && 2*kd < nK {
+		cost += float64(nK * (kd + 1) * (kd + 1))
+	} else {
+		cost += float64(nK*nK*nK) / 3
+	}
+	return cost, kd
+}
+
+// newRateSolver prepares the solver for the lines with the given pump
+// rates per upper and lower eigenstate (units of Gamma, at the centre of
+// the profile) and decay rates in units of Gamma. It keeps the side with
+// the cheaper solve.
+func newRateSolver(nU, nL int, lines []line, gU, gL float64, pumpU, pumpL []float64) *rateSolver {
+	up, lo := make([]int, len(lines)), make([]int, len(lines))
+	for l, ln := range lines {
+		up[l], lo[l] = ln.up, ln.lo
+	}
+	costU, _ := solverCost(nU, nL, up, lo)
+	costL, _ := solverCost(nL, nU, lo, up)
+	return newRateSolverSide(nU, nL, lines, gU, gL, pumpU, pumpL, costU <= costL)
+}
+
+// newRateSolverSide is newRateSolver keeping the given side.
+func newRateSolverSide(nU, nL int, lines []line, gU, gL float64, pumpU, pumpL []float64, keepUpper bool) *rateSolver {
+	up, lo := make([]int, len(lines)), make([]int, len(lines))
+	for l, ln := range lines {
+		up[l], lo[l] = ln.up, ln.lo
+	}
+	_, kdU := solverCost(nU, nL, up, lo)
+	_, kdL := solverCost(nL, nU, lo, up)
+	rs := &rateSolver{keepUpper: keepUpper}
+	if rs.keepUpper {
+		rs.nK, rs.nE, rs.gK, rs.gE, rs.pK, rs.pE = nU, nL, gU, gL, pumpU, pumpL
+		rs.kOf, rs.eOf, rs.kd = up, lo, kdU
+	} else {
+		rs.nK, rs.nE, rs.gK, rs.gE, rs.pK, rs.pE = nL, nU, gL, gU, pumpL, pumpU
+		rs.kOf, rs.eOf, rs.kd = lo, up, kdL
+	}
+	nK := rs.nK
+	rs.band = nK > 8 && rs.kd < 32 && 2*rs.kd < nK
+	index := func(i, j int) int {
+		if i > j {
+			i, j = j, i
+		}
+		if rs.band {
+			return i*(rs.kd+1) + j - i
+		}
+		return i*nK + j
+	}
+	count := make([]int, rs.nE)
+	for _, e := range rs.eOf {
+		count[e]++
+	}
+	rs.eOff = make([]int, rs.nE+1)
+	for e := 0; e < rs.nE; e++ {
+		rs.eOff[e+1] = rs.eOff[e] + count[e]
+	}
+	rs.eLines = make([]int, len(lines))
+	fill := make([]int, rs.nE)
+	for l, e := range rs.eOf {
+		rs.eLines[rs.eOff[e]+fill[e]] = l
+		fill[e]++
+	}
+	rs.pOff = make([]int, rs.nE+1)
+	for e := 0; e < rs.nE; e++ {
+		ls := rs.eLines[rs.eOff[e]:rs.eOff[e+1]]
+		for i, l1 := range ls {
+			for _, l2 := range ls[i:] {
+				rs.pairs = append(rs.pairs, linePair{l1, l2, index(rs.kOf[l1], rs.kOf[l2])})
+			}
+		}
+		rs.pOff[e+1] = len(rs.pairs)
+	}
+	rs.diag = make([]int, nK)
+	for k := range rs.diag {
+		rs.diag[k] = index(k, k)
+	}
+	if rs.band {
+		rs.a = make([]float64, nK*(rs.kd+1))
+		rs.sb = blas64.SymmetricBand{Uplo: blas.Upper, N: nK, K: rs.kd, Stride: rs.kd + 1, Data: rs.a}
+	} else {
+		rs.a = make([]float64, nK*nK)
+		rs.sym = blas64.Symmetric{N: nK, Stride: nK, Data: rs.a, Uplo: blas.Upper}
+	}
+	rs.x = make([]float64, nK)
+	rs.dE = make([]float64, rs.nE)
+	rs.nEv = make([]float64, rs.nE)
+	rs.rhs = blas64.General{Rows: nK, Cols: 1, Stride: 1, Data: rs.x}
+	return rs
+}
+
+var errNotPositive = errors.New("rate matrix not positive definite")
+
+// solve computes the inversions dn[l] = n_up - n_lo of every line for one
+// velocity class with stimulated rates r[l] (units of Gamma) and Doppler
+// weight phi (the pump of the class is phi times the central pump).
+func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
+	a := rs.a
+	for i := range a {
+		a[i] = 0
+	}
+	for k, d := range rs.diag {
+		a[d] = rs.gK
+		rs.x[k] = phi * rs.pK[k]
+	}
+	for e := range rs.dE {
+		rs.dE[e] = rs.gE
+	}
+	for l, rl := range r {
+		a[rs.diag[rs.kOf[l]]] += rl
+		rs.dE[rs.eOf[l]] += rl
+	}
+	// Schur complement of the diagonal eliminated block:
+	// A -= R_ke R_k'e / d_e, rhs += R_ke pi_e / d_e.
+	for e := 0; e < rs.nE; e++ {
+		inv := 1 / rs.dE[e]
+		pe := phi * rs.pE[e] * inv
+		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
+			rs.x[rs.kOf[l]] += r[l] * pe
+		}
+		for _, p := range rs.pairs[rs.pOff[e]:rs.pOff[e+1]] {
+			a[p.idx] -= r[p.l1] * r[p.l2] * inv
+		}
+	}
+	switch {
+	case rs.nK == 1:
+		rs.x[0] /= a[0]
+	case rs.band:
+		t, ok := lapack64.Pbtrf(rs.sb)
+		if !ok {
+			return errNotPositive
+		}
+		lapack64.Pbtrs(t, rs.rhs)
+	default:
+		t, ok := lapack64.Potrf(rs.sym)
+		if !ok {
+			return errNotPositive
+		}
+		lapack64.Potrs(t, rs.rhs)
+	}
+	for e := 0; e < rs.nE; e++ {
+		s := phi * rs.pE[e]
+		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
+			s += r[l] * rs.x[rs.kOf[l]]
+		}
+		rs.nEv[e] = s / rs.dE[e]
+	}
+	if rs.keepUpper {
+		for l := range r {
+			dn[l] = rs.x[rs.kOf[l]] - rs.nEv[rs.eOf[l]]
+		}
+	} else {
+		for l := range r {
+			dn[l] = rs.nEv[rs.eOf[l]] - rs.x[rs.kOf[l]]
+		}
+	}
+	return nil
+}
+
+// populations copies the last solution into upper and lower (lengths nU, nL).
+func (rs *rateSolver) populations(upper, lower []float64) {
+	if rs.keepUpper {
+		copy(upper, rs.x)
+		copy(lower, rs.nEv)
+	} else {
+		copy(upper, rs.nEv)
+		copy(lower, rs.x)
+	}
+}
+
+// pumpWeights returns the relative pump weight of every eigenstate of st
+// for the pump pm (mean 1 over the states of the level, so the total pump
+// rate is fixed). See doc.go for the alignment form.
+func pumpWeights(pm Pump, st *levels.Structure, byF map[float64]float64) ([]float64, error) {
+	n := len(st.States)
+	w := make([]float64, n)
+	switch pm.Kind {
+	case Isotropic:
+		for i := range w {
+			w[i] = 1
+		}
+	case Anisotropic:
+		j := st.Level.J
+		jj := j * (j + 1)
+		// Normalize 3<m_J^2> - J(J+1) by its largest magnitude over m_J so
+		// that |f| <= 1 and p = 1 + Alignment f >= 0 for |Alignment| <= 1.
+		norm := 0.0
+		for m := -j; m <= j+1e-9; m++ {
+			norm = math.Max(norm, math.Abs(3*m*m-jj))
+		}
+		for i, s := range st.States {
+			f := 0.0
+			if norm > 0 {
+				f = (3*s.MJ2 - jj) / norm
+			}
+			w[i] = 1 + pm.Alignment*f
+		}
+	case Hyperfine:
+		for i, s := range st.States {
+			w[i] = 1
+			if v, ok := lookupF(byF, s.F); ok {
+				w[i] = v
+			}
+		}
+	}
+	sum := 0.0
+	for _, v := range w {
+		sum += v
+	}
+	if !(sum > 0) {
+		return nil, fmt.Errorf("transfer: pump weights of the J=%g level sum to %g: nothing is pumped", st.Level.J, sum)
+	}
+	for i := range w {
+		// Clamp the tiny negatives that rounding of <m_J^2> can give.
+		w[i] = math.Max(0, w[i]*float64(n)/sum)
+	}
+	return w, nil
+}
+
+// lookupF finds the weight of label f allowing for rounding of half-integers.
+func lookupF(m map[float64]float64, f float64) (float64, bool) {
+	if v, ok := m[f]; ok {
+		return v, true
+	}
+	for k, v := range m {
+		if math.Abs(k-f) < 1e-6 {
+			return v, true
+		}
+	}
+	return 0, false
+}
+
+// gKE returns the decay rate (units of Gamma) of the upper or lower level.
+func (rs *rateSolver) gKE(upper bool) float64 {
+	if upper == rs.keepUpper {
+		return rs.gK
+	}
+	return rs.gE
+}
+
+// pump returns the pump rates of the upper or lower level.
+func (rs *rateSolver) pump(upper bool) []float64 {
+	if upper == rs.keepUpper {
+		return rs.pK
+	}
+	return rs.pE
+}

@@ -1,0 +1,190 @@
+package transfer
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+
+	"maserpol/levels"
+	"maserpol/levels/species"
+)
+
+// fullSolve solves the complete (upper + lower) steady-state rate equations
+// of physics.md section 4 as one dense linear system with gonum's
+// Dense.Solve (LU): an independent path to the eliminated, banded solve.
+func fullSolve(t *testing.T, nU, nL int, lines []line, r []float64, gU, gL float64, pU, pL []float64, phi float64) (up, lo []float64) {
+	n := nU + nL
+	a := mat.NewDense(n, n, nil)
+	b := mat.NewVecDense(n, nil)
+	for i := 0; i < nU; i++ {
+		a.Set(i, i, gU)
+		b.SetVec(i, phi*pU[i])
+	}
+	for i := 0; i < nL; i++ {
+		a.Set(nU+i, nU+i, gL)
+		b.SetVec(nU+i, phi*pL[i])
+	}
+	for l, ln := range lines {
+		u, d := ln.up, nU+ln.lo
+		// -R (n_a - n_b) in the upper equation, +R (n_a - n_b) in the lower.
+		a.Set(u, u, a.At(u, u)+r[l])
+		a.Set(u, d, a.At(u, d)-r[l])
+		a.Set(d, d, a.At(d, d)+r[l])
+		a.Set(d, u, a.At(d, u)-r[l])
+	}
+	var x mat.VecDense
+	if err := x.SolveVec(a, b); err != nil {
+		t.Fatal(err)
+	}
+	up, lo = make([]float64, nU), make([]float64, nL)
+	for i := range up {
+		up[i] = x.AtVec(i)
+	}
+	for i := range lo {
+		lo[i] = x.AtVec(nU + i)
+	}
+	return up, lo
+}
+
+func linesOf(tr *levels.Transition) []line {
+	var ls []line
+	for _, l := range tr.Lines {
+		ls = append(ls, line{up: l.Upper, lo: l.Lower, q: l.Q, s: l.Strength, offset: l.Offset})
+	}
+	return ls
+}
+
+// TestRateSolverAgainstFullSystem compares the bipartite elimination (dense
+// and banded Cholesky, either side kept) with the full system for random
+// stimulated rates up to 1e4 Gamma, random pumps and unequal decay rates.
+// Tolerance 1e-8 relative: the condition number is at most ~R/Gamma = 1e4.
+func TestRateSolverAgainstFullSystem(t *testing.T) {
+	rng := rand.New(rand.NewPCG(1, 2))
+	trs := map[string]*levels.Transition{"j1-0": j10(0.5, 3)}
+	for _, name := range []string{"h2o-22", "synthetic-j6-5"} {
+		sp, err := species.Preset(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		tr, err := levels.NewTransition(sp, 2)
+		if err != nil {
+			t.Fatal(err)
+		}
+		trs[name] = tr
+	}
+	sawBand, sawDense := false, false
+	for name, tr := range trs {
+		nU, nL := len(tr.Upper.States), len(tr.Lower.States)
+		lines := linesOf(tr)
+		pU, pL := make([]float64, nU), make([]float64, nL)
+		for i := range pU {
+			pU[i] = 0.5 + rng.Float64()
+		}
+		for i := range pL {
+			pL[i] = 0.3 * rng.Float64()
+		}
+		gU, gL := 0.8, 1.3
+		rs := newRateSolver(nU, nL, lines, gU, gL, pU, pL)
+		// Force the other side too, to test both eliminations.
+		for _, keepUp := range []bool{rs.keepUpper, !rs.keepUpper} {
+			s := newRateSolverSide(nU, nL, lines, gU, gL, pU, pL, keepUp)
+			sawBand = sawBand || s.band
+			sawDense = sawDense || (!s.band && s.nK > 1)
+			for trial := 0; trial < 3; trial++ {
+				r := make([]float64, len(lines))
+				scale := math.Pow(10, float64(2*trial))
+				for l := range r {
+					r[l] = scale * rng.Float64() * lines[l].s
+				}
+				dn := make([]float64, len(lines))
+				phi := 0.7
+				if err := s.solve(r, phi, dn); err != nil {
+					t.Fatal(err)
+				}
+				up, lo := fullSolve(t, nU, nL, lines, r, gU, gL, pU, pL, phi)
+				gotU, gotL := make([]float64, nU), make([]float64, nL)
+				s.populations(gotU, gotL)
+				for i := range up {
+					if d := math.Abs(gotU[i] - up[i]); d > 1e-8*math.Max(1, math.Abs(up[i])) {
+						t.Errorf("%s keepUpper=%v band=%v R~%g: n_u[%d] = %.10g, full system %.10g", name, keepUp, s.band, scale, i, gotU[i], up[i])
+					}
+				}
+				for i := range lo {
+					if d := math.Abs(gotL[i] - lo[i]); d > 1e-8*math.Max(1, math.Abs(lo[i])) {
+						t.Errorf("%s keepUpper=%v R~%g: n_l[%d] = %.10g, full system %.10g", name, keepUp, scale, i, gotL[i], lo[i])
+					}
+				}
+				for l, ln := range lines {
+					if d := math.Abs(dn[l] - (up[ln.up] - lo[ln.lo])); d > 1e-8 {
+						t.Fatalf("%s: inversion of line %d off by %g", name, l, d)
+					}
+				}
+			}
+		}
+	}
+	if !sawBand || !sawDense {
+		t.Errorf("banded path tested: %v, dense path tested: %v; want both", sawBand, sawDense)
+	}
+}
+
+// TestPumpWeights checks the pump normalizations of doc.go: mean weight 1
+// over a level (total pump rate fixed), |m_J| = J favoured for positive
+// alignment, weights non-negative at |Alignment| = 1, F weights relative.
+func TestPumpWeights(t *testing.T) {
+	tr := j10(0.5, 1)
+	w, err := pumpWeights(Pump{Kind: Anisotropic, Alignment: 1}, tr.Upper, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// J = 1: 3 m^2 - 2 = (1, -2, 1), normalized by 2: f = (1/2, -1, 1/2);
+	// p = 1 + f = (3/2, 0, 3/2), mean 1.
+	want := []float64{1.5, 0, 1.5}
+	for i := range want {
+		if math.Abs(w[i]-want[i]) > 1e-12 {
+			t.Errorf("alignment weights %v, want %v", w, want)
+			break
+		}
+	}
+	sp, err := species.Preset("h2o-22")
+	if err != nil {
+		t.Fatal(err)
+	}
+	h, err := levels.NewTransition(sp, 0.5)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, a := range []float64{-1, -0.3, 0.6, 1} {
+		w, err := pumpWeights(Pump{Kind: Anisotropic, Alignment: a}, h.Upper, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		sum := 0.0
+		for _, v := range w {
+			if v < 0 {
+				t.Errorf("alignment %g: negative weight %g", a, v)
+			}
+			sum += v
+		}
+		if math.Abs(sum/float64(len(w))-1) > 1e-12 {
+			t.Errorf("alignment %g: mean weight %g, want 1", a, sum/float64(len(w)))
+		}
+	}
+	w, err = pumpWeights(Pump{Kind: Hyperfine, UpperF: map[float64]float64{7: 3}}, h.Upper, map[float64]float64{7: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var w7, w6 float64
+	for i, s := range h.Upper.States {
+		switch s.F {
+		case 7:
+			w7 = w[i]
+		case 6:
+			w6 = w[i]
+		}
+	}
+	if math.Abs(w7/w6-3) > 1e-12 {
+		t.Errorf("hyperfine pump: F=7/F=6 weight ratio %g, want 3", w7/w6)
+	}
+}
