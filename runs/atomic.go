@@ -1,0 +1,93 @@
+package runs
+
+import (
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+)
+
+// tmpMarker names temporary files; they are removed on resume.
+const tmpMarker = ".tmp-"
+
+// writeFileAtomic writes data to path through a temporary file in the same
+// directory, synced and renamed, so readers and crashes never see a
+// partial file.
+func writeFileAtomic(path string, data []byte) error {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	f, err := os.CreateTemp(dir, base+tmpMarker+"*")
+	if err != nil {
+		return err
+	}
+	tmp := f.Name()
+	_, err = f.Write(data)
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Chmod(tmp, 0o644)
+	}
+	if err == nil {
+		err = os.Rename(tmp, path)
+	}
+	if err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	return nil
+}
+
+// writeAtomic streams what fill writes into a temporary file in the
+// directory of path and renames it into place, so large tables never sit
+// whole in memory and a crash leaves no partial file.
+func writeAtomic(path string, fill func(io.Writer) error) error {
+	dir, base := filepath.Split(path)
+	if dir == "" {
+		dir = "."
+	}
+	f, err := os.CreateTemp(dir, base+tmpMarker+"*")
+	if err != nil {
+		return err
+	}
+	tmp := f.Name()
+	err = fill(f)
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Chmod(tmp, 0o644)
+	}
+	if err == nil {
+		err = os.Rename(tmp, path)
+	}
+	if err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	return nil
+}
+
+// removeTemps deletes temporary files left by an interrupted session.
+func removeTemps(dirs ...string) {
+	for _, d := range dirs {
+		ents, err := os.ReadDir(d)
+		if err != nil {
+			continue
+		}
+		for _, e := range ents {
+			if strings.Contains(e.Name(), tmpMarker) {
+				os.Remove(filepath.Join(d, e.Name()))
+			}
+		}
+	}
+}

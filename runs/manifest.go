@@ -1,0 +1,181 @@
+package runs
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+	"sort"
+	"time"
+
+	"github.com/BurntSushi/toml"
+
+	"maserpol/config"
+)
+
+// Manifest is manifest.json of a run directory.
+type Manifest struct {
+	Program     string `json:"program"`
+	Version     string `json:"version"`
+	ConfigHash  string `json:"config_hash"`
+	Study       string `json:"study,omitempty"`
+	Status      string `json:"status"` // complete, incomplete, failed, interrupted
+	Started     string `json:"started"`
+	Finished    string `json:"finished,omitempty"`
+	Shard       string `json:"shard,omitempty"`
+	Determinism string `json:"determinism"`
+	// Seeds are the seeds of the random sweeps in the config, by key.
+	Seeds map[string]int64 `json:"seeds"`
+	// Swept lists the swept parameters (summary column names).
+	Swept    []string      `json:"swept"`
+	Sessions []Session     `json:"sessions"`
+	Models   []ModelStatus `json:"models"`
+}
+
+// Session records one invocation that worked on the directory.
+type Session struct {
+	Kind     string `json:"kind"` // run, resume, merge
+	Started  string `json:"started"`
+	Finished string `json:"finished,omitempty"`
+	Workers  int    `json:"workers,omitempty"`
+	Shard    string `json:"shard,omitempty"`
+	Ran      int    `json:"models_run"`
+}
+
+// ModelStatus is the state of one model.
+type ModelStatus struct {
+	Name       string             `json:"name"`
+	Index      int                `json:"index"`
+	Species    string             `json:"species"`
+	Parameters map[string]float64 `json:"parameters"`
+	Status     string             `json:"status"`
+	Error      string             `json:"error,omitempty"`
+}
+
+const determinismNote = "tables depend only on the config: not on worker count, order of completion, interruption and resume, or sharding"
+
+// Status of a study in the manifest.
+const (
+	StudyComplete    = "complete"
+	StudyIncomplete  = "incomplete" // some models pending (e.g. other shards)
+	StudyFailed      = "failed"     // some models failed
+	StudyInterrupted = "interrupted"
+)
+
+func stamp(t time.Time) string { return t.UTC().Format(time.RFC3339Nano) }
+
+func newManifest(st *config.Study, l layout, sh Shard, now time.Time) *Manifest {
+	m := &Manifest{
+		Program:     "maserpol",
+		Version:     Version,
+		ConfigHash:  st.Hash,
+		Status:      StudyIncomplete,
+		Started:     stamp(now),
+		Shard:       sh.String(),
+		Determinism: determinismNote,
+		Seeds:       seedsOf(st.Resolved),
+		Study:       studyName(st.Resolved),
+		Swept:       append([]string{}, l.params[len(paramColumnDefs):]...),
+	}
+	for i := range st.Models {
+		md := &st.Models[i]
+		ms := ModelStatus{Name: md.Name, Index: md.Index, Species: md.Species, Status: StatusPending, Parameters: map[string]float64{}}
+		if pv, err := l.paramValues(md); err == nil {
+			for j, n := range l.params {
+				ms.Parameters[n] = pv[j]
+			}
+		}
+		m.Models = append(m.Models, ms)
+	}
+	return m
+}
+
+// seedsOf finds the seeds of random sweeps ({dist, n, seed, ...} tables) in
+// the resolved config.
+func seedsOf(resolved []byte) map[string]int64 {
+	seeds := map[string]int64{}
+	var doc map[string]any
+	if toml.Unmarshal(resolved, &doc) != nil {
+		return seeds
+	}
+	var walk func(prefix string, t map[string]any)
+	walk = func(prefix string, t map[string]any) {
+		for k, v := range t {
+			key := k
+			if prefix != "" {
+				key = prefix + "." + k
+			}
+			sub, ok := v.(map[string]any)
+			if !ok {
+				continue
+			}
+			if _, isRandom := sub["dist"]; isRandom {
+				if s, ok := sub["seed"].(int64); ok {
+					seeds[key] = s
+				}
+				continue
+			}
+			walk(key, sub)
+		}
+	}
+	walk("", doc)
+	return seeds
+}
+
+func studyName(resolved []byte) string {
+	var doc struct {
+		Name string `toml:"name"`
+	}
+	toml.Unmarshal(resolved, &doc)
+	return doc.Name
+}
+
+func (m *Manifest) update() {
+	done, failed := 0, 0
+	for _, s := range m.Models {
+		switch s.Status {
+		case StatusDone:
+			done++
+		case StatusFailed:
+			failed++
+		}
+	}
+	switch {
+	case failed > 0:
+		m.Status = StudyFailed
+	case done == len(m.Models):
+		m.Status = StudyComplete
+	default:
+		m.Status = StudyIncomplete
+	}
+}
+
+func (m *Manifest) write(dir string) error {
+	sort.Slice(m.Models, func(i, j int) bool { return m.Models[i].Index < m.Models[j].Index })
+	data, err := json.MarshalIndent(m, "", "  ")
+	if err != nil {
+		return err
+	}
+	return writeFileAtomic(filepath.Join(dir, "manifest.json"), append(data, '\n'))
+}
+
+// ReadManifest reads manifest.json of a run directory.
+func ReadManifest(dir string) (*Manifest, error) {
+	data, err := os.ReadFile(filepath.Join(dir, "manifest.json"))
+	if err != nil {
+		return nil, err
+	}
+	var m Manifest
+	dec := json.NewDecoder(bytes.NewReader(data))
+	if err := dec.Decode(&m); err != nil {
+		return nil, fmt.Errorf("%s: %v", filepath.Join(dir, "manifest.json"), err)
+	}
+	return &m, nil
+}
+
+func jsonEncode(w *bytes.Buffer, m Manifest) error {
+	data, err := json.MarshalIndent(m, "", "  ")
+	w.Write(data)
+	return err
+}
