@@ -1,0 +1,165 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"maserpol/config/units"
+	"maserpol/runs/interpret"
+)
+
+const (
+	compareArgs    = "RUNDIR OBSERVED [--stokes IQUV] [--velocity-unit U] [--intensity-unit U] [--max-shift V] [--top N] [--csv FILE] [--plot FILE]"
+	compareSummary = "fit every model of a run directory to an observed spectrum and rank them by chi-square"
+)
+
+// cmdCompare is "maserpol compare".
+func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("compare", compareArgs, compareSummary, stderr)
+	stokes := fs.String("stokes", "IQUV", "Stokes parameters to fit (I is required)")
+	vunit := fs.String("velocity-unit", "", "velocity unit when the file gives none (e.g. km/s)")
+	iunit := fs.String("intensity-unit", "", "intensity unit when the file gives none (K, mK; other units are kept and the scale is per K)")
+	maxShift := fs.String("max-shift", "", "largest velocity shift of the models, e.g. \"30 km/s\" (default: unbounded)")
+	top := fs.Int("top", 3, "number of best models to print in detail and plot")
+	csvPath := fs.String("csv", "", "write the full ranking as CSV to this file")
+	plotPath := fs.String("plot", "", "plot the best models over the data (format from the extension: png, svg, pdf, eps)")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return flagExit(err)
+	}
+	if len(pos) != 2 {
+		fs.Usage()
+		return exitInput
+	}
+	if *top < 1 {
+		return report(stderr, usagef("--top %d: allowed >= 1", *top))
+	}
+	var opt interpret.FitOptions
+	if *maxShift != "" {
+		if opt.MaxShift, err = units.Parse(*maxShift, units.Velocity); err != nil || !(opt.MaxShift > 0) {
+			return report(stderr, usagef("--max-shift %q: need a velocity > 0 (allowed units: %s)", *maxShift, units.Allowed(units.Velocity)))
+		}
+	}
+	obs, err := interpret.ReadObserved(pos[1], interpret.ReadOptions{VelocityUnit: *vunit, IntensityUnit: *iunit, Stokes: *stokes})
+	if err != nil {
+		return report(stderr, usagef("%v", err))
+	}
+	models, warn, err := interpret.ReadRunDir(pos[0])
+	if err != nil {
+		return report(stderr, usagef("%v", err))
+	}
+	for _, w := range warn {
+		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
+	}
+	if err := ctx.Err(); err != nil {
+		return report(stderr, err)
+	}
+	rk := interpret.Rank(obs, models, opt)
+	printRanking(stdout, obs, rk, *top)
+	for _, r := range rk[:min(*top, len(rk))] {
+		if rg := rgAt(r); rg > interpret.ValidLimit {
+			fmt.Fprintf(stderr, "maserpol: warning: %s at R/Gamma %.3g has R/(g Omega) = %.3g > 0.1: outside the populations-only regime\n", r.Model.Name, r.Best.Saturation, rg)
+		}
+	}
+	if *csvPath != "" {
+		if err := writeAtomically(*csvPath, rankingCSV(obs, rk)); err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+	}
+	if *plotPath != "" {
+		paths, err := saveFigure(interpret.CompareFigure(obs, rk[:min(*top, len(rk))], "best models over "+obs.File), *plotPath)
+		if err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", strings.Join(paths, ", "))
+	}
+	return exitOK
+}
+
+func rgAt(r interpret.Ranked) float64 {
+	for i, s := range r.Model.Spectra {
+		if s.Checkpoint == r.Best.Checkpoint {
+			return r.Model.RoverGOmega[i]
+		}
+	}
+	return 0
+}
+
+func paramText(m *interpret.RunModel) string {
+	var s []string
+	for _, p := range m.Params {
+		s = append(s, p.Name+"="+strconv.FormatFloat(p.Value, 'g', 4, 64))
+	}
+	return strings.Join(s, " ")
+}
+
+func scaleUnit(o *interpret.Observed) string {
+	switch o.Unit {
+	case "K":
+		return "K/K"
+	case "":
+		return "(file unit)/K"
+	}
+	return o.Unit + "/K"
+}
+
+func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, top int) {
+	fmt.Fprintf(w, "Models against %s (%d channels, %.4g..%.4g km/s)\n", obs.File, obs.Channels(), obs.Velocity[0]/1e3, obs.Velocity[obs.Channels()-1]/1e3)
+	for k, s := range interpret.StokesNames {
+		if obs.Use[k] {
+			fmt.Fprintf(w, "  errors of %s: %s\n", s, obs.ErrFrom[k])
+		}
+	}
+	fmt.Fprintf(w, "  free per model: velocity shift, scale (on I, also applied to Q, U, V), checkpoint; rank by chi2/(N - 3)\n\n")
+	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
+	hdr := "rank\tmodel\tparameters\tcheckpoint\tR/Gamma\tR/(g Omega)\tshift (km/s)\tscale (" + scaleUnit(obs) + ")"
+	for k, s := range interpret.StokesNames {
+		if obs.Use[k] {
+			hdr += "\tchi2_" + s + "/N"
+		}
+	}
+	fmt.Fprintln(tw, hdr+"\treduced chi2")
+	for i, r := range rk {
+		if i >= top && i >= 10 {
+			fmt.Fprintf(tw, "...\t(%d more models; --csv for all)\n", len(rk)-i)
+			break
+		}
+		line := fmt.Sprintf("%d\t%s\t%s\t%d\t%s\t%s\t%.4f\t%s", i+1, r.Model.Name, paramText(r.Model), r.Best.Checkpoint, g3(r.Best.Saturation), g3(rgAt(r)), r.Best.Shift/1e3, g3(r.Best.Scale))
+		for k := range interpret.StokesNames {
+			if obs.Use[k] {
+				line += "\t" + g3(r.Best.RedChi2Of(k))
+			}
+		}
+		fmt.Fprintln(tw, line+"\t"+g3(r.Best.RedChi2))
+	}
+	tw.Flush()
+	fmt.Fprintf(w, "\nValidity: the populations-only model holds where R/(g Omega) <= 0.1; rows above are outside it.\n")
+	fmt.Fprintf(w, "A good chi-square does not exclude other models outside the run's grid, nor mechanisms the model lacks (maserpol diagnose).\n")
+}
+
+func rankingCSV(obs *interpret.Observed, rk []interpret.Ranked) []byte {
+	var b csvBuffer
+	b.comment("maserpol compare: %s; shift in km/s added to model velocities; scale in %s; chi2_X/N per Stokes; red_chi2 = total chi2/(N*n_stokes - 3); valid: R/(g Omega) <= 0.1", obs.File, scaleUnit(obs))
+	cols := []string{"rank", "model", "parameters", "checkpoint", "saturation", "r_over_gomega", "valid", "shift_kms", "scale"}
+	for k, s := range interpret.StokesNames {
+		if obs.Use[k] {
+			cols = append(cols, "chi2_"+s+"_per_N")
+		}
+	}
+	b.row(append(cols, "red_chi2")...)
+	for i, r := range rk {
+		cells := []string{strconv.Itoa(i + 1), r.Model.Name, paramText(r.Model), strconv.Itoa(r.Best.Checkpoint), fcsv(r.Best.Saturation), fcsv(rgAt(r)), strconv.FormatBool(rgAt(r) <= interpret.ValidLimit), fcsv(r.Best.Shift / 1e3), fcsv(r.Best.Scale)}
+		for k := range interpret.StokesNames {
+			if obs.Use[k] {
+				cells = append(cells, fcsv(r.Best.RedChi2Of(k)))
+			}
+		}
+		b.row(append(cells, fcsv(r.Best.RedChi2))...)
+	}
+	return b.Bytes()
+}

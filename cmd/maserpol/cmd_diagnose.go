@@ -1,0 +1,393 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"maserpol/config/units"
+	"maserpol/levels/species"
+	"maserpol/runs/figures"
+	"maserpol/runs/interpret"
+	"maserpol/transfer"
+)
+
+const (
+	diagnoseArgs    = "SPECIES --ml FRACTION --ml-err FRACTION (--tb T --domega SR | --saturation LO:HI) [flags]"
+	diagnoseSummary = "test whether a measured polarization could come from something other than the field"
+)
+
+// cmdDiagnose is "maserpol diagnose".
+func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("diagnose", diagnoseArgs, diagnoseSummary, stderr)
+	ml := fs.String("ml", "", "measured fractional linear polarization at the line peak (0..1, or with %, e.g. \"40 %\") [required]")
+	mlErr := fs.String("ml-err", "", "1-sigma error of --ml (fraction or %) [required]")
+	pv := fs.String("pv", "", "measured circular polarization P_V = (V_max - V_min)/I_peak (fraction or %); compared only with --field")
+	pvErr := fs.String("pv-err", "", "1-sigma error of --pv")
+	evpa := fs.String("evpa-rel", "", "EVPA minus the position angle of the projected field, e.g. \"85 deg\"; selects the parallel or perpendicular branch (unset: orientation not tested)")
+	fwhm := fs.String("fwhm", "", "FWHM of the intrinsic (thermal+turbulent) velocity distribution, e.g. \"1.7 km/s\" (overrides --doppler)")
+	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution (FWHM = 1.665 x this)")
+	tb := fs.String("tb", "", "brightness temperature of the feature, e.g. \"3e9 K\" or \"1e9:5e9 K\"")
+	domega := fs.String("domega", "", "beaming solid angle dOmega, e.g. \"1e-2 sr\" or \"1e-3:1e-2 sr\"")
+	sat := fs.String("saturation", "", "saturation R/Gamma (dimensionless), one value or LO:HI; instead of --tb/--domega")
+	field := fs.String("field", "", "field strength of the field cases, e.g. \"5 G\" (default: R/(g Omega) = 0.01 at the top of the saturation range)")
+	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels (upper and lower)")
+	nsigma := fs.Float64("nsigma", 2, "a model is consistent when within this many errors")
+	quick := fs.Bool("quick", false, "small grid (15 models) for previews and tests")
+	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
+	csvPath := fs.String("csv", "", "write the verdict table as CSV to this file")
+	details := fs.String("details", "", "write one CSV row per model to this file")
+	plotPath := fs.String("plot", "", "write the figure of m_l against saturation (format from the extension: png, svg, pdf, eps)")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return flagExit(err)
+	}
+	if len(pos) != 1 {
+		fs.Usage()
+		return exitInput
+	}
+	sp, err := species.Resolve(pos[0])
+	if err != nil {
+		return report(stderr, err)
+	}
+	frac := func(name, s string, required bool) (float64, bool, error) {
+		if s == "" {
+			if required {
+				return 0, false, usagef("--%s is required (a fraction 0..1, or e.g. \"40 %%\")", name)
+			}
+			return 0, false, nil
+		}
+		x, err := units.Parse(s, units.Dimensionless)
+		if err != nil {
+			return 0, false, usagef("--%s: %v", name, err)
+		}
+		return x, true, nil
+	}
+	var m interpret.Measurement
+	var e error
+	if m.Ml, _, e = frac("ml", *ml, true); e != nil {
+		return report(stderr, e)
+	}
+	if m.MlErr, _, e = frac("ml-err", *mlErr, true); e != nil {
+		return report(stderr, e)
+	}
+	if m.PV, m.HasPV, e = frac("pv", *pv, false); e != nil {
+		return report(stderr, e)
+	}
+	if m.HasPV {
+		if m.PVErr, _, e = frac("pv-err", *pvErr, true); e != nil {
+			return report(stderr, e)
+		}
+		if *field == "" {
+			fmt.Fprintln(stderr, "maserpol: warning: --pv is compared with the models only when --field gives the field strength; ignored")
+			m.HasPV = false
+		}
+	}
+	m.NSigma = *nsigma
+	if *evpa != "" {
+		psi, err := units.Parse(*evpa, units.Angle)
+		if err != nil {
+			return report(stderr, usagef("--evpa-rel: %v", err))
+		}
+		m.Branch = interpret.BranchOf(psi, 5*math.Pi/180)
+		if m.Branch == interpret.AnyBranch {
+			fmt.Fprintln(stderr, "maserpol: warning: --evpa-rel within 5 deg of 45 deg: parallel and perpendicular cannot be told apart; orientation not tested")
+		}
+	}
+	base := transfer.Params{Species: sp}
+	if *fwhm != "" {
+		w, err := units.Parse(*fwhm, units.Velocity)
+		if err != nil || !(w > 0) {
+			return report(stderr, usagef("--fwhm %q: need a velocity > 0 (allowed units: %s)", *fwhm, units.Allowed(units.Velocity)))
+		}
+		base.Doppler = w / (2 * math.Sqrt(math.Ln2))
+	} else {
+		w, err := units.Parse(*doppler, units.Velocity)
+		if err != nil || !(w > 0) {
+			return report(stderr, usagef("--doppler %q: need a velocity > 0 (allowed units: %s)", *doppler, units.Allowed(units.Velocity)))
+		}
+		base.Doppler = w
+	}
+	g, err := units.Parse(*gamma, units.Rate)
+	if err != nil || !(g > 0) {
+		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
+	}
+	base.GammaUpper, base.GammaLower = g, g
+	if *field != "" {
+		b, err := units.Parse(*field, units.Field)
+		if err != nil || b == 0 {
+			return report(stderr, usagef("--field %q: need a non-zero field (allowed units: %s)", *field, units.Allowed(units.Field)))
+		}
+		base.Field = b
+	}
+	satFrom := ""
+	switch {
+	case *sat != "" && (*tb != "" || *domega != ""):
+		return report(stderr, usagef("give either --saturation or --tb with --domega, not both"))
+	case *sat != "":
+		if m.SatLo, m.SatHi, e = parseRange(*sat, units.Dimensionless, "saturation"); e != nil {
+			return report(stderr, e)
+		}
+		satFrom = "given"
+	case *tb != "" && *domega != "":
+		t1, t2, err := parseRange(*tb, units.Temperature, "tb")
+		if err != nil {
+			return report(stderr, err)
+		}
+		o1, o2, err := parseRange(*domega, units.SolidAngle, "domega")
+		if err != nil {
+			return report(stderr, err)
+		}
+		if !(t1 > 0 && o1 > 0) {
+			return report(stderr, usagef("--tb and --domega must be > 0"))
+		}
+		base.BeamSolid = math.Sqrt(o1 * o2)
+		m.SatLo = interpret.SaturationOfTbdOmega(base, t1*o1)
+		m.SatHi = interpret.SaturationOfTbdOmega(base, t2*o2)
+		satFrom = fmt.Sprintf("from T_b dOmega = %.3g..%.3g K sr, R = A k T_b dOmega/(4 pi h nu), Gamma = %s", t1*o1, t2*o2, units.Format(g, units.Rate, "s^-1"))
+	default:
+		return report(stderr, usagef("give the saturation: --tb with --domega, or --saturation LO:HI"))
+	}
+	if err := m.Validate(); err != nil {
+		return report(stderr, usagef("%v", err))
+	}
+	grid := interpret.DefaultGrid()
+	if *quick {
+		grid = interpret.QuickGrid()
+	}
+	spec := interpret.DiagnoseSpec{Base: base, Measurement: m, Grid: grid}
+	fmt.Fprintf(stderr, "maserpol: diagnose: running %d models on %d workers\n", len(interpret.Cases(base, grid, m.Branch, 1)), *workers)
+	d, err := interpret.Diagnose(ctx, spec, *workers, transfer.Run, nil)
+	if err != nil {
+		var pe *transfer.ParamError
+		if errors.As(err, &pe) {
+			return report(stderr, usagef("%v", err))
+		}
+		return report(stderr, err)
+	}
+	printDiagnosis(stdout, d, sp.Name, satFrom)
+	for _, w := range d.Warnings {
+		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
+	}
+	if *csvPath != "" {
+		if err := writeAtomically(*csvPath, diagnosisCSV(d, sp.Name)); err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+	}
+	if *details != "" {
+		if err := writeAtomically(*details, diagnosisDetailsCSV(d)); err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *details)
+	}
+	if *plotPath != "" {
+		paths, err := saveFigure(interpret.DiagnosisFigure(d, sp.Name+": m_l against saturation"), *plotPath)
+		if err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", strings.Join(paths, ", "))
+	}
+	return exitOK
+}
+
+func pct(x float64) string { return strconv.FormatFloat(100*x, 'f', 1, 64) + " %" }
+
+func g3(x float64) string { return strconv.FormatFloat(x, 'g', 3, 64) }
+
+func ivText(iv interpret.Interval, f func(float64) string) string {
+	if iv.Empty() {
+		return "-"
+	}
+	if iv.Lo == iv.Hi {
+		return f(iv.Lo)
+	}
+	return f(iv.Lo) + " .. " + f(iv.Hi)
+}
+
+// fcsv writes a float for CSV, infinities (empty ranges) as nan.
+func fcsv(x float64) string {
+	if math.IsInf(x, 0) {
+		return "nan"
+	}
+	return strconv.FormatFloat(x, 'g', -1, 64)
+}
+
+func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
+	m := d.Measurement
+	fmt.Fprintf(w, "Diagnosis for %s\n", name)
+	fmt.Fprintf(w, "  measured m_l = %s +/- %s (%s branch), consistent within %g sigma\n", pct(m.Ml), pct(m.MlErr), m.Branch, m.NSigma)
+	if m.HasPV {
+		fmt.Fprintf(w, "  measured P_V = %s +/- %s\n", pct(m.PV), pct(m.PVErr))
+	}
+	fmt.Fprintf(w, "  saturation R/Gamma = %s .. %s (%s)\n", g3(m.SatLo), g3(m.SatHi), satFrom)
+	fmt.Fprintf(w, "  field of the field cases B = %s G; weak-field cases B = %s mG\n\n", g3(units.In(d.Field, units.Field, "G")), g3(units.In(d.WeakField, units.Field, "mG")))
+	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "mechanism\tparameter\tconsistent within errors\tm_l reached (branch)\tR/(g Omega)\tvalidity\treproduces")
+	for _, v := range d.Verdicts {
+		valid := "valid (R/gOmega <= 0.1)"
+		if !v.Valid {
+			valid = "OUTSIDE validity"
+		}
+		rep := "no"
+		if v.Reproduces {
+			rep = "yes"
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\n", v.Mechanism, v.Parameter, v.Consistent, ivText(v.Reach, pct), ivText(v.RGOmega, g3), valid, rep)
+	}
+	tw.Flush()
+	fmt.Fprintf(w, "\n  the field alone (isotropic pumping) reaches at most m_l = %s on this branch in this saturation range\n", pct(d.FieldMax))
+	for _, v := range d.Verdicts {
+		if v.Note != "" {
+			fmt.Fprintf(w, "  note, %s: %s\n", v.Mechanism, v.Note)
+		}
+	}
+	fmt.Fprintln(w)
+	for _, s := range d.Statements {
+		fmt.Fprintf(w, "%s\n", s)
+	}
+	fmt.Fprintln(w, "\nThe model cannot rule out:")
+	for _, s := range d.CannotRuleOut {
+		fmt.Fprintf(w, "  - %s\n", s)
+	}
+}
+
+func diagnosisCSV(d *interpret.Diagnosis, name string) []byte {
+	var b csvBuffer
+	m := d.Measurement
+	b.comment("maserpol diagnose: %s; m_l = %g +/- %g (%s branch), R/Gamma %g..%g, n_sigma %g; field cases B = %g G, weak-field cases B = %g G", name, m.Ml, m.MlErr, m.Branch, m.SatLo, m.SatHi, m.NSigma, d.Field, d.WeakField)
+	b.comment("fractions dimensionless; pl = m_l projected on the measured branch (negative: orthogonal); valid: R/(g Omega) <= 0.1 (populations-only model)")
+	b.row("mechanism", "parameter", "consistent", "n_consistent", "n_models", "pl_min", "pl_max", "r_over_gomega_min", "r_over_gomega_max", "valid", "reproduces", "note")
+	for _, v := range d.Verdicts {
+		b.row(v.Mechanism.String(), v.Parameter, v.Consistent, strconv.Itoa(v.NConsistent), strconv.Itoa(v.NModels),
+			fcsv(v.Reach.Lo), fcsv(v.Reach.Hi), fcsv(v.RGOmega.Lo), fcsv(v.RGOmega.Hi), strconv.FormatBool(v.Valid), strconv.FormatBool(v.Reproduces), v.Note)
+	}
+	return b.Bytes()
+}
+
+func diagnosisDetailsCSV(d *interpret.Diagnosis) []byte {
+	var b csvBuffer
+	b.comment("maserpol diagnose: one row per model; theta in deg, B in G; pl and pv over the measured saturation range; pl = m_l projected on the measured branch")
+	b.row("mechanism", "theta_deg", "B_G", "alignment", "seed_ml", "pl_min", "pl_max", "pv_min", "pv_max", "r_over_gomega_max", "covered", "consistent", "error")
+	for _, r := range d.Cases {
+		msg := ""
+		if r.Err != nil {
+			msg = r.Err.Error()
+		}
+		b.row(r.Case.Mechanism.String(), fcsv(r.Case.Theta*180/math.Pi), fcsv(r.Case.Params.Field), fcsv(r.Case.Alignment), fcsv(r.Case.SeedFraction),
+			fcsv(r.Reach.Lo), fcsv(r.Reach.Hi), fcsv(r.PV.Lo), fcsv(r.PV.Hi), fcsv(r.RGOmega.Hi), strconv.FormatBool(r.Covered), strconv.FormatBool(r.Consistent), msg)
+	}
+	return b.Bytes()
+}
+
+// parseRange reads "x unit" or "lo:hi unit" (the unit after the last part
+// applies to both) and returns lo, hi in internal units.
+func parseRange(s string, k units.Kind, flagName string) (lo, hi float64, err error) {
+	parts := strings.Split(s, ":")
+	if len(parts) > 2 {
+		return 0, 0, usagef("--%s %q: write one value or lo:hi with a unit (allowed units: %s)", flagName, s, units.Allowed(k))
+	}
+	last := strings.TrimSpace(parts[len(parts)-1])
+	unit := ""
+	if i := numberPrefix(last); i < len(last) {
+		unit = strings.TrimSpace(last[i:])
+	}
+	vals := make([]float64, len(parts))
+	for i, p := range parts {
+		p = strings.TrimSpace(p)
+		if i < len(parts)-1 && numberPrefix(p) == len(p) {
+			p += " " + unit
+		}
+		v, err := units.Parse(p, k)
+		if err != nil {
+			return 0, 0, usagef("--%s: %v", flagName, err)
+		}
+		vals[i] = v
+	}
+	lo, hi = vals[0], vals[len(vals)-1]
+	if hi < lo {
+		return 0, 0, usagef("--%s %q: low end above high end (allowed: lo <= hi)", flagName, s)
+	}
+	return lo, hi, nil
+}
+
+// numberPrefix returns the length of the leading number of s.
+func numberPrefix(s string) int {
+	i := 0
+	for i < len(s) && strings.ContainsRune("+-0123456789.eE", rune(s[i])) {
+		// an 'e' not followed by a digit or sign starts a unit
+		if (s[i] == 'e' || s[i] == 'E') && (i+1 >= len(s) || !strings.ContainsRune("+-0123456789", rune(s[i+1]))) {
+			break
+		}
+		i++
+	}
+	return i
+}
+
+// writeAtomically writes data to path through a temporary file in the
+// same directory, renamed into place: nothing half-written is left.
+func writeAtomically(path string, data []byte) error {
+	dir := filepath.Dir(path)
+	f, err := os.CreateTemp(dir, filepath.Base(path)+".tmp-*")
+	if err != nil {
+		return err
+	}
+	tmp := f.Name()
+	_, err = f.Write(data)
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Chmod(tmp, 0o644)
+	}
+	if err == nil {
+		err = os.Rename(tmp, path)
+	}
+	if err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("writing %s: %w", path, err)
+	}
+	return nil
+}
+
+// saveFigure writes a figure to path; the format is the file extension.
+func saveFigure(s *figures.Stack, path string) ([]string, error) {
+	ext := strings.TrimPrefix(filepath.Ext(path), ".")
+	ok := false
+	for _, f := range figures.Formats {
+		ok = ok || f == ext
+	}
+	if !ok {
+		return nil, usagef("--plot %q: unknown figure format %q (allowed: %s)", path, ext, strings.Join(figures.Formats, ", "))
+	}
+	return s.Save(strings.TrimSuffix(path, "."+ext), []string{ext})
+}
+
+// csvBuffer is a CSV table under construction with '#' comment lines.
+type csvBuffer struct{ bytes.Buffer }
+
+func (b *csvBuffer) comment(format string, a ...any) {
+	fmt.Fprintf(b, "# "+format+"\n", a...)
+}
+
+func (b *csvBuffer) row(cells ...string) {
+	for i, c := range cells {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		if strings.ContainsAny(c, ",\"\n") {
+			c = `"` + strings.ReplaceAll(c, `"`, `""`) + `"`
+		}
+		b.WriteString(c)
+	}
+	b.WriteByte('\n')
+}

@@ -1,0 +1,181 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"math"
+	"runtime"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"maserpol/config/units"
+	"maserpol/levels"
+	"maserpol/levels/species"
+	"maserpol/runs/interpret"
+	"maserpol/transfer"
+)
+
+const (
+	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--csv FILE]"
+	zfactorSummary = "compute the factor that turns Stokes V into B cos(theta), against the linear-Zeeman estimate"
+)
+
+// cmdZeemanFactor is "maserpol zeeman-factor".
+func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := newFlags("zeeman-factor", zfactorArgs, zfactorSummary, stderr)
+	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), an index as listed, or F labels \"2-1\"")
+	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit")
+	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution")
+	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution (overrides --doppler)")
+	satMax := fs.Float64("saturation", 100, "highest saturation R/Gamma (dimensionless); checkpoints from 1e-3 up")
+	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels")
+	b0 := fs.String("b0", "", "small model field, e.g. \"2 G\" (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
+	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
+	csvPath := fs.String("csv", "", "write the table as CSV to this file")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return flagExit(err)
+	}
+	if len(pos) != 1 {
+		fs.Usage()
+		return exitInput
+	}
+	sp, err := species.Resolve(pos[0])
+	if err != nil {
+		return report(stderr, err)
+	}
+	base := transfer.Params{Species: sp, Saturation: *satMax, FirstCheckpoint: 1e-3, CheckpointsPerDecade: 2}
+	if !(*satMax > 1e-3) {
+		return report(stderr, usagef("--saturation %g: allowed > 1e-3 (R/Gamma)", *satMax))
+	}
+	vs, vname := *doppler, "doppler"
+	if *fwhm != "" {
+		vs, vname = *fwhm, "fwhm"
+	}
+	w, err := units.Parse(vs, units.Velocity)
+	if err != nil || !(w > 0) {
+		return report(stderr, usagef("--%s %q: need a velocity > 0 (allowed units: %s)", vname, vs, units.Allowed(units.Velocity)))
+	}
+	if vname == "fwhm" {
+		w /= 2 * math.Sqrt(math.Ln2)
+	}
+	base.Doppler = w
+	g, err := units.Parse(*gamma, units.Rate)
+	if err != nil || !(g > 0) {
+		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
+	}
+	base.GammaUpper, base.GammaLower = g, g
+	spec := interpret.FactorSpec{Base: base, Component: interpret.Blend}
+	if *b0 != "" {
+		if spec.B0, err = units.Parse(*b0, units.Field); err != nil || !(spec.B0 > 0) {
+			return report(stderr, usagef("--b0 %q: need a field > 0 (allowed units: %s)", *b0, units.Allowed(units.Field)))
+		}
+	}
+	th, err := parseAngleList(*thetas)
+	if err != nil {
+		return report(stderr, err)
+	}
+	spec.Thetas = th
+	if spec.Component, err = pickComponent(sp, *comp); err != nil {
+		return report(stderr, err)
+	}
+	f, err := interpret.ZeemanFactors(ctx, spec, *workers, transfer.Run)
+	if err != nil {
+		return report(stderr, err)
+	}
+	printFactors(stdout, f)
+	for _, w := range f.Warnings {
+		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
+	}
+	if *csvPath != "" {
+		if err := writeAtomically(*csvPath, factorsCSV(f)); err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+	}
+	return exitOK
+}
+
+func parseAngleList(s string) ([]float64, error) {
+	parts := strings.Split(s, ",")
+	last := strings.TrimSpace(parts[len(parts)-1])
+	unit := strings.TrimSpace(last[numberPrefix(last):])
+	var out []float64
+	for _, p := range parts {
+		p = strings.TrimSpace(p)
+		if numberPrefix(p) == len(p) {
+			p += " " + unit
+		}
+		x, err := units.Parse(p, units.Angle)
+		if err != nil {
+			return nil, usagef("--theta: %v", err)
+		}
+		if x < 0 || x > math.Pi {
+			return nil, usagef("--theta %q: allowed 0 to 180 deg", p)
+		}
+		out = append(out, x)
+	}
+	return out, nil
+}
+
+// pickComponent resolves --component: "blend", an index into
+// levels.Components, or "Fu-Fl" labels.
+func pickComponent(sp *levels.Species, s string) (int, error) {
+	if s == "" || s == "blend" {
+		return interpret.Blend, nil
+	}
+	cs, err := levels.Components(sp)
+	if err != nil {
+		return 0, err
+	}
+	var list []string
+	for i, c := range cs {
+		list = append(list, fmt.Sprintf("%d (F=%g-%g)", i, c.Fu, c.Fl))
+		if fmt.Sprintf("%g-%g", c.Fu, c.Fl) == s {
+			return i, nil
+		}
+	}
+	if i, err := strconv.Atoi(s); err == nil && i >= 0 && i < len(cs) {
+		return i, nil
+	}
+	return 0, usagef("--component %q: no such component (allowed: blend, %s)", s, strings.Join(list, ", "))
+}
+
+func compName(f *interpret.Factors) string {
+	if f.Component == interpret.Blend {
+		return "blend of all components"
+	}
+	c := f.Components[f.Component]
+	return fmt.Sprintf("component %d, F=%g-%g", f.Component, c.Fu, c.Fl)
+}
+
+func printFactors(w io.Writer, f *interpret.Factors) {
+	fmt.Fprintf(w, "Zeeman factor for %s, %s\n", f.Species.Name, compName(f))
+	fmt.Fprintf(w, "  model field B0 = %s G (and 2 B0 for the linearity check); fit V = A dI/dv + C I over %.4g..%.4g km/s\n", g3(f.B0), f.Window[0]/1e3, f.Window[1]/1e3)
+	fmt.Fprintf(w, "  convention: V = cos(theta) dv_Z dI/dv, dv_Z = sigma+ shift against pi (half the sigma+/sigma- separation), IAU V, radio velocity\n")
+	fmt.Fprintf(w, "  use: B cos(theta) = A_observed / factor; single-component linear-Zeeman factor = %s m/s per G\n\n", g3(f.Linear))
+	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "theta (deg)\tR/Gamma\tR/(g Omega)\tfactor (m/s per G)\tfactor/linear\tP_V per B cos(theta) (1/G)\tlinearity\tfit residual\tvalidity")
+	for _, r := range f.Rows {
+		valid := "valid"
+		if r.RoverGOmega > interpret.ValidLimit {
+			valid = "OUTSIDE (R/gOmega > 0.1)"
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", g3(r.Theta*180/math.Pi), g3(r.Saturation), g3(r.RoverGOmega), g3(r.Factor), strconv.FormatFloat(r.Ratio, 'f', 3, 64), g3(r.PVPerG), pct(r.Linearity), pct(r.Residual), valid)
+	}
+	tw.Flush()
+}
+
+func factorsCSV(f *interpret.Factors) []byte {
+	var b csvBuffer
+	b.comment("maserpol zeeman-factor: %s, %s; B0 = %g G; fit window %g..%g km/s", f.Species.Name, compName(f), f.B0, f.Window[0]/1e3, f.Window[1]/1e3)
+	b.comment("factor = A/(B0 cos theta) from V = A dI/dv + C I; B cos(theta) = A_observed/factor; linear = single-component linear-Zeeman value; valid: R/(g Omega) <= 0.1")
+	b.row("theta_deg", "saturation", "r_over_gomega", "valid", "A_kms", "C", "factor_ms_per_G", "linear_ms_per_G", "ratio", "pv_per_G", "linearity", "residual")
+	for _, r := range f.Rows {
+		b.row(fcsv(r.Theta*180/math.Pi), fcsv(r.Saturation), fcsv(r.RoverGOmega), strconv.FormatBool(r.RoverGOmega <= interpret.ValidLimit),
+			fcsv(r.A/1e3), fcsv(r.C), fcsv(r.Factor), fcsv(r.Linear), fcsv(r.Ratio), fcsv(r.PVPerG), fcsv(r.Linearity), fcsv(r.Residual))
+	}
+	return b.Bytes()
+}

@@ -1,0 +1,531 @@
+package main
+
+import (
+	"context"
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"maserpol/config"
+	"maserpol/config/units"
+	"maserpol/levels"
+	"maserpol/levels/species"
+	"maserpol/runs/figures"
+)
+
+func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := flagsFor("levels", stderr)
+	field := fs.String("field", "", "field `grid`: \"START:STOP:N UNIT\" (N evenly spaced values), a list \"a,b,c UNIT\" or one value \"25 mG\" (default \"0:100:21 mG\" for paramagnetic species, \"0:100:21 G\" for closed-shell ones)")
+	format := fs.String("format", "table", "output `format`: table or csv")
+	plotFile := fs.String("plot", "", "also draw the Zeeman diagram into `FILE` (.png, .svg, .pdf or .eps; no extension: png and svg)")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return flagExit(err)
+	}
+	if len(pos) != 1 {
+		fs.Usage()
+		return exitInput
+	}
+	if *format != "table" && *format != "csv" {
+		return report(stderr, usagef("--format %q: allowed: table, csv", *format))
+	}
+	sps, names, err := resolveSpecies(pos[0])
+	if err != nil {
+		return report(stderr, err)
+	}
+	var cw *csv.Writer
+	if *format == "csv" {
+		cw = csv.NewWriter(stdout)
+		cw.Write(levelCSVHeader)
+	}
+	for k, sp := range sps {
+		grid := *field
+		if grid == "" {
+			grid = "0:100:21 G"
+			if sp.Magneton == levels.Bohr {
+				grid = "0:100:21 mG"
+			}
+		}
+		fields, err := parseFieldGrid(grid)
+		if err != nil {
+			return report(stderr, err)
+		}
+		if sp.Unverified {
+			fmt.Fprintf(stderr, "maserpol: warning: species %s has constants not checked against a source (marked unverified); treat the numbers as illustrative\n", names[k])
+		}
+		lt, err := solveLevels(sp, fields)
+		if err != nil {
+			return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
+		}
+		if cw != nil {
+			lt.writeCSV(cw)
+		} else {
+			lt.writeTable(stdout, names[k])
+		}
+		if *plotFile != "" {
+			base := *plotFile
+			if len(sps) > 1 {
+				ext := filepath.Ext(base)
+				base = strings.TrimSuffix(base, ext) + "_" + safeName(names[k]) + ext
+			}
+			paths, err := lt.plot(base)
+			if err != nil {
+				return report(stderr, err)
+			}
+			for _, p := range paths {
+				fmt.Fprintf(stderr, "maserpol: wrote Zeeman diagram %s\n", p)
+			}
+		}
+	}
+	if cw != nil {
+		cw.Flush()
+		if err := cw.Error(); err != nil {
+			return report(stderr, err)
+		}
+	}
+	return exitOK
+}
+
+func safeName(s string) string {
+	return strings.Map(func(r rune) rune {
+		if r == '/' || r == ' ' || r == '\\' {
+			return '_'
+		}
+		return r
+	}, filepath.Base(strings.TrimSuffix(s, filepath.Ext(s))))
+}
+
+// resolveSpecies takes a preset name, a species file, or a config file
+// (.toml with a species key): the distinct species of its models.
+func resolveSpecies(arg string) ([]*levels.Species, []string, error) {
+	if strings.HasSuffix(arg, ".toml") {
+		if _, err := os.Stat(arg); err == nil && looksLikeConfig(arg) {
+			st, err := config.Load(arg)
+			if err != nil {
+				return nil, nil, err
+			}
+			var sps []*levels.Species
+			var names []string
+			seen := map[string]bool{}
+			for _, m := range st.Models {
+				if !seen[m.Species] && m.Params.Species != nil {
+					seen[m.Species] = true
+					sps = append(sps, m.Params.Species)
+					names = append(names, m.Species)
+				}
+			}
+			if len(sps) == 0 {
+				return nil, nil, usagef("%s: no models, so no species", arg)
+			}
+			return sps, names, nil
+		}
+	}
+	sp, err := species.Resolve(arg)
+	if err != nil {
+		var se *species.Error
+		if errors.As(err, &se) {
+			return nil, nil, err
+		}
+		return nil, nil, usagef("species %q: %v (presets: %s)", arg, err, strings.Join(species.Names(), ", "))
+	}
+	return []*levels.Species{sp}, []string{arg}, nil
+}
+
+// looksLikeConfig tells a study config from a species file: a config has a
+// [field] table (species files describe levels, not fields).
+func looksLikeConfig(path string) bool {
+	data, err := os.ReadFile(path)
+	if err != nil {
+		return false
+	}
+	for _, l := range strings.Split(string(data), "\n") {
+		t := strings.TrimSpace(l)
+		if strings.HasPrefix(t, "[field]") || strings.HasPrefix(t, "[output]") || strings.HasPrefix(t, "[column]") {
+			return true
+		}
+	}
+	return false
+}
+
+// parseFieldGrid reads "START:STOP:N UNIT", "a,b,c UNIT" or "x UNIT" into
+// fields in gauss.
+func parseFieldGrid(s string) ([]float64, error) {
+	bad := func(f string, a ...any) error {
+		return usagef("--field %q: %s; write e.g. \"0:100:21 mG\" (21 fields from 0 to 100 mG), \"0,10,50 mG\" or \"25 mG\" (units: %s)",
+			s, fmt.Sprintf(f, a...), units.Allowed(units.Field))
+	}
+	t := strings.TrimSpace(s)
+	i := strings.LastIndexAny(t, "0123456789.")
+	if i < 0 {
+		return nil, bad("no numbers")
+	}
+	nums, unit := strings.TrimSpace(t[:i+1]), strings.TrimSpace(t[i+1:])
+	if unit == "" {
+		return nil, bad("no unit")
+	}
+	one := func(x string) (float64, error) {
+		v, err := units.Parse(strings.TrimSpace(x)+" "+unit, units.Field)
+		if err != nil {
+			return 0, bad("%v", err)
+		}
+		return v, nil
+	}
+	var out []float64
+	switch {
+	case strings.Contains(nums, ":"):
+		p := strings.Split(nums, ":")
+		if len(p) != 3 {
+			return nil, bad("a range needs START:STOP:N")
+		}
+		a, err := one(p[0])
+		if err != nil {
+			return nil, err
+		}
+		b, err := one(p[1])
+		if err != nil {
+			return nil, err
+		}
+		n, err := strconv.Atoi(strings.TrimSpace(p[2]))
+		if err != nil || n < 1 || n > 10000 {
+			return nil, bad("N must be an integer from 1 to 10000")
+		}
+		if n == 1 && a != b {
+			return nil, bad("N = 1 needs START = STOP")
+		}
+		for k := 0; k < n; k++ {
+			x := a
+			if n > 1 {
+				x = a + (b-a)*float64(k)/float64(n-1)
+			}
+			out = append(out, x)
+		}
+	default:
+		for _, x := range strings.Split(nums, ",") {
+			v, err := one(x)
+			if err != nil {
+				return nil, err
+			}
+			out = append(out, v)
+		}
+	}
+	for _, b := range out {
+		if math.Abs(b) > 1e6 {
+			return nil, bad("fields beyond 1e6 G are outside the level solver's range")
+		}
+	}
+	return out, nil
+}
+
+// levelTables holds what "levels" prints, in display units.
+type levelTables struct {
+	sp     *levels.Species
+	comps  []levels.Component
+	fields []float64 // gauss
+	states [][2][]stateRow
+	lines  [][]lineRow
+}
+
+type stateRow struct {
+	key         int // multiplet and M, stable across fields
+	F, F1, M    float64
+	energyKHz   float64
+	zeroKHz     float64 // energy of the state's zero-field multiplet
+	composition string
+}
+
+type lineRow struct {
+	u, l              stateRow
+	q                 int
+	offsetKHz, streng float64
+}
+
+func solveLevels(sp *levels.Species, fields []float64) (*levelTables, error) {
+	comps, err := levels.Components(sp)
+	if err != nil {
+		return nil, err
+	}
+	ts, err := levels.NewTransitionSolver(sp)
+	if err != nil {
+		return nil, err
+	}
+	lt := &levelTables{sp: sp, comps: comps, fields: fields}
+	var tr levels.Transition
+	for _, b := range fields {
+		if err := ts.Solve(b, &tr); err != nil {
+			return nil, fmt.Errorf("at %s: %w", units.Format(b, units.Field, "mG"), err)
+		}
+		var st [2][]stateRow
+		mults := [2][]levels.Multiplet{ts.Upper().Multiplets(), ts.Lower().Multiplets()}
+		for k, s := range []*levels.Structure{tr.Upper, tr.Lower} {
+			for _, x := range s.States {
+				zero := math.NaN()
+				if x.Multiplet >= 0 && x.Multiplet < len(mults[k]) {
+					zero = units.In(mults[k][x.Multiplet].Energy, units.Frequency, "kHz")
+				}
+				st[k] = append(st[k], stateRow{
+					key: x.Multiplet*100000 + int(math.Round(2*x.M)), F: x.F, F1: x.F1, M: x.M,
+					energyKHz:   units.In(x.Energy, units.Frequency, "kHz"),
+					zeroKHz:     zero,
+					composition: composition(s, &x),
+				})
+			}
+		}
+		var ls []lineRow
+		for _, ln := range tr.Lines {
+			ls = append(ls, lineRow{u: st[0][ln.Upper], l: st[1][ln.Lower], q: ln.Q,
+				offsetKHz: units.In(ln.Offset, units.Frequency, "kHz"), streng: ln.Strength})
+		}
+		lt.states = append(lt.states, st)
+		lt.lines = append(lt.lines, ls)
+	}
+	return lt, nil
+}
+
+// composition lists the largest basis components of a state, |amplitude|^2
+// first, until 99 % of the norm or three terms.
+func composition(s *levels.Structure, x *levels.State) string {
+	type term struct {
+		w float64
+		i int
+	}
+	var ts []term
+	for i, a := range x.Vector {
+		if a*a > 1e-6 {
+			ts = append(ts, term{a * a, i})
+		}
+	}
+	sort.SliceStable(ts, func(a, b int) bool { return ts[a].w > ts[b].w })
+	var parts []string
+	sum := 0.0
+	for k, t := range ts {
+		if k == 3 || sum > 0.99 {
+			break
+		}
+		sum += t.w
+		b := s.Basis[t.i]
+		ket := "mJ=" + half(b.MJ)
+		for j, m := range b.MI {
+			name := "I" + strconv.Itoa(j+1)
+			if j < len(s.Level.Spins) && s.Level.Spins[j].Name != "" {
+				name = s.Level.Spins[j].Name
+			}
+			ket += ",m_" + name + "=" + half(m)
+		}
+		parts = append(parts, fmt.Sprintf("%.3f|%s>", t.w, ket))
+	}
+	return strings.Join(parts, " + ")
+}
+
+// half writes a multiple of 1/2 as an integer or n/2.
+func half(x float64) string {
+	t := int(math.Round(2 * x))
+	if t%2 == 0 {
+		return strconv.Itoa(t / 2)
+	}
+	return strconv.Itoa(t) + "/2"
+}
+
+func linearUpTo(g float64) string {
+	if math.IsInf(g, 1) {
+		return "inf"
+	}
+	return strconv.FormatFloat(g, 'g', 4, 64)
+}
+
+func (lt *levelTables) writeTable(w io.Writer, name string) {
+	sp := lt.sp
+	fmt.Fprintf(w, "Species %s (%s): rest frequency %s, A = %g s^-1, %s magneton\n",
+		name, sp.Name, units.Format(sp.Frequency, units.Frequency, "GHz"), sp.EinsteinA, strings.ToLower(sp.Magneton.String()))
+	fmt.Fprintf(w, "Upper level J = %s, lower level J = %s; energies E/h relative to the unsplit level, offsets relative to the rest frequency.\n\n", half(sp.Upper.J), half(sp.Lower.J))
+	fmt.Fprintf(w, "Zero-field hyperfine components (weak-field splitting: sigma+ centroid minus pi centroid):\n")
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+	fmt.Fprintf(tw, "Fu\tF1u\tFl\tF1l\toffset (kHz)\tstrength\tsplit (Hz/G)\tsplit (km/s/G)\tlinear up to (G)\t\n")
+	for _, c := range lt.comps {
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.4f\t%.5f\t%.5g\t%.5g\t%s\t\n", half(c.Fu), half(c.F1u), half(c.Fl), half(c.F1l),
+			units.In(c.Offset, units.Frequency, "kHz"), c.Strength, c.SplitHzPerG, c.SplitKmsPerG, linearUpTo(c.LinearUpTo))
+	}
+	tw.Flush()
+	fmt.Fprintf(w, "(linear up to: field below which the splitting stays linear in B within 1 %%; inf = no hyperfine decoupling found up to 1e6 G)\n")
+	for i, b := range lt.fields {
+		fmt.Fprintf(w, "\nField B = %s\n", units.Format(b, units.Field, "mG"))
+		for k, lev := range []string{"upper", "lower"} {
+			fmt.Fprintf(w, "  %s level states:\n", lev)
+			tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+			fmt.Fprintf(tw, "    F\tF1\tM\tE/h (kHz)\tcomposition (|amplitude|^2, uncoupled basis)\n")
+			for _, s := range lt.states[i][k] {
+				fmt.Fprintf(tw, "    %s\t%s\t%s\t%.6f\t%s\n", half(s.F), half(s.F1), half(s.M), s.energyKHz, s.composition)
+			}
+			tw.Flush()
+		}
+		fmt.Fprintf(w, "  transitions (offset from the rest frequency; strengths sum to 1 per upper state):\n")
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+		fmt.Fprintf(tw, "    upper F,F1,M\tlower F,F1,M\tq\toffset (kHz)\tstrength\n")
+		for _, l := range lt.lines[i] {
+			fmt.Fprintf(tw, "    %s,%s,%s\t%s,%s,%s\t%s\t%.6f\t%.5f\n", half(l.u.F), half(l.u.F1), half(l.u.M), half(l.l.F), half(l.l.F1), half(l.l.M), qName(l.q), l.offsetKHz, l.streng)
+		}
+		tw.Flush()
+	}
+	fmt.Fprintln(w)
+}
+
+// levelCSVHeader is the long-form CSV of "levels --format csv": one row per
+// component (kind = component), state (kind = state) or transition line
+// (kind = line); cells that do not apply are empty.
+var levelCSVHeader = []string{"species", "kind", "field_mG", "level", "F", "F1", "M", "energy_khz", "composition",
+	"Fu", "F1u", "Mu", "Fl", "F1l", "Ml", "q", "offset_khz", "strength", "split_hz_per_G", "split_kms_per_G", "linear_up_to_G"}
+
+func (lt *levelTables) writeCSV(cw *csv.Writer) {
+	f := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+	row := func(kv map[string]string) {
+		r := make([]string, len(levelCSVHeader))
+		for i, h := range levelCSVHeader {
+			r[i] = kv[h]
+		}
+		cw.Write(r)
+	}
+	name := lt.sp.Name
+	for _, c := range lt.comps {
+		lin := f(c.LinearUpTo)
+		if math.IsInf(c.LinearUpTo, 1) {
+			lin = "inf"
+		}
+		row(map[string]string{"species": name, "kind": "component", "field_mG": "0", "Fu": half(c.Fu), "F1u": half(c.F1u), "Fl": half(c.Fl), "F1l": half(c.F1l),
+			"offset_khz": f(units.In(c.Offset, units.Frequency, "kHz")), "strength": f(c.Strength),
+			"split_hz_per_G": f(c.SplitHzPerG), "split_kms_per_G": f(c.SplitKmsPerG), "linear_up_to_G": lin})
+	}
+	for i, b := range lt.fields {
+		mg := f(units.In(b, units.Field, "mG"))
+		for k, lev := range []string{"upper", "lower"} {
+			for _, s := range lt.states[i][k] {
+				row(map[string]string{"species": name, "kind": "state", "field_mG": mg, "level": lev, "F": half(s.F), "F1": half(s.F1), "M": half(s.M),
+					"energy_khz": f(s.energyKHz), "composition": s.composition})
+			}
+		}
+		for _, l := range lt.lines[i] {
+			row(map[string]string{"species": name, "kind": "line", "field_mG": mg, "Fu": half(l.u.F), "F1u": half(l.u.F1), "Mu": half(l.u.M),
+				"Fl": half(l.l.F), "F1l": half(l.l.F1), "Ml": half(l.l.M), "q": strconv.Itoa(l.q), "offset_khz": f(l.offsetKHz), "strength": f(l.streng)})
+		}
+	}
+}
+
+// plot draws the Zeeman diagram: one curve per state (followed by its
+// label across fields), coloured by F.
+func (lt *levelTables) plot(file string) ([]string, error) {
+	ext := strings.TrimPrefix(filepath.Ext(file), ".")
+	formats := []string{"png", "svg"}
+	base := file
+	if ext != "" {
+		formats = []string{strings.ToLower(ext)}
+		base = strings.TrimSuffix(file, filepath.Ext(file))
+		ok := false
+		for _, f := range figures.Formats {
+			ok = ok || f == formats[0]
+		}
+		if !ok {
+			return nil, usagef("--plot %s: unknown figure format %q (allowed: %s)", file, ext, strings.Join(figures.Formats, ", "))
+		}
+	}
+	x := make([]float64, len(lt.fields))
+	for i, b := range lt.fields {
+		x[i] = units.In(b, units.Field, "mG")
+	}
+	var panels [2][]figures.Curve
+	var relative [2]bool
+	for k := 0; k < 2; k++ {
+		// When the hyperfine spread dwarfs the Zeeman shifts, plot each
+		// state's shift from its zero-field multiplet, so the fans show.
+		lo, hi, shift := math.Inf(1), math.Inf(-1), 0.0
+		for i := range lt.fields {
+			for _, s := range lt.states[i][k] {
+				lo, hi = math.Min(lo, s.zeroKHz), math.Max(hi, s.zeroKHz)
+				shift = math.Max(shift, math.Abs(s.energyKHz-s.zeroKHz))
+			}
+		}
+		relative[k] = hi-lo > 10*shift && shift > 0
+		type track struct {
+			F, F1 float64
+			y     []float64
+		}
+		var order []int
+		tracks := map[int]*track{}
+		for i := range lt.fields {
+			for _, s := range lt.states[i][k] {
+				t, ok := tracks[s.key]
+				if !ok {
+					t = &track{F: s.F, F1: s.F1, y: nanSlice(len(lt.fields))}
+					tracks[s.key] = t
+					order = append(order, s.key)
+				}
+				t.y[i] = s.energyKHz
+				if relative[k] {
+					t.y[i] -= s.zeroKHz
+				}
+			}
+		}
+		var fs []float64
+		for _, key := range order {
+			fs = appendUnique(fs, tracks[key].F*1000+tracks[key].F1)
+		}
+		sort.Float64s(fs)
+		labelled := map[int]bool{}
+		for _, key := range order {
+			t := tracks[key]
+			style := sort.SearchFloat64s(fs, t.F*1000+t.F1)
+			c := figures.Curve{X: x, Y: t.y, Style: style}
+			if !labelled[style] {
+				labelled[style] = true
+				c.Label = "F = " + half(t.F)
+				if len(lt.sp.Upper.Spins) > 1 {
+					c.Label = "F1 = " + half(t.F1) + ", " + c.Label
+				}
+			}
+			panels[k] = append(panels[k], c)
+		}
+	}
+	title := lt.sp.Name + ": Zeeman diagram"
+	fig := figures.Zeeman(title, panels[0], panels[1])
+	for k, rel := range relative {
+		if rel {
+			fig.Panels[k].YLabel = []string{"upper", "lower"}[k] + " ΔE/h (kHz)"
+		}
+	}
+	if relative[0] || relative[1] {
+		fig.Title += "\nshifts from the zero-field hyperfine levels"
+	}
+	return fig.Save(base, formats)
+}
+
+func nanSlice(n int) []float64 {
+	y := make([]float64, n)
+	for i := range y {
+		y[i] = math.NaN()
+	}
+	return y
+}
+
+func appendUnique(xs []float64, x float64) []float64 {
+	for _, y := range xs {
+		if y == x {
+			return xs
+		}
+	}
+	return append(xs, x)
+}
+
+func qName(q int) string {
+	switch q {
+	case 1:
+		return "+1"
+	case -1:
+		return "-1"
+	}
+	return "0"
+}

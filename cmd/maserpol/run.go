@@ -1,0 +1,216 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"maserpol/config"
+	"maserpol/runs"
+)
+
+func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := flagsFor("run", stderr)
+	workers := fs.Int("workers", 0, "number of models computed at once (default: the number of CPUs); results do not depend on it")
+	resume := fs.Bool("resume", false, "continue an interrupted run in its directory; refuses if the config changed")
+	shard := fs.String("shard", "", "run only shard `K/N`: the models with index % N == K-1 (K = 1..N, like a job-array task index)")
+	out := fs.String("out", "", "run `directory` (default: output.dir of the config)")
+	noPlots := fs.Bool("no-plots", false, "do not draw figures (maserpol plot draws them later)")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return flagExit(err)
+	}
+	if len(pos) != 1 {
+		fs.Usage()
+		return exitInput
+	}
+	if *workers < 0 {
+		return report(stderr, usagef("--workers must be >= 1 (got %d)", *workers))
+	}
+	var sh runs.Shard
+	if *shard != "" {
+		if sh, err = runs.ParseShard(*shard); err != nil {
+			return report(stderr, usagef("--shard: %v", err))
+		}
+	}
+	st, err := config.Load(pos[0])
+	if err != nil {
+		return report(stderr, err)
+	}
+	dir := st.Output.Dir
+	if *out != "" {
+		dir = *out
+	}
+	code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: *resume, Shard: sh, NoPlots: *noPlots}, stdout, stderr)
+	if code == exitFailure && ctx.Err() != nil {
+		hint := "maserpol run " + pos[0] + " --resume"
+		if *out != "" {
+			hint += " --out " + *out
+		}
+		if *shard != "" {
+			hint += " --shard " + *shard
+		}
+		fmt.Fprintf(stderr, "maserpol: interrupted; finished models are kept. Continue with:\n  %s\n", hint)
+	}
+	return code
+}
+
+// runStudy executes a parsed study and reports where everything went. It
+// is shared by run and demo.
+func runStudy(ctx context.Context, st *config.Study, dir string, opt runs.Options, stdout, stderr io.Writer) int {
+	studyWarnings(stderr, st)
+	opt.Progress = stderr
+	rep, err := runs.Execute(ctx, st, dir, opt)
+	if rep != nil {
+		printWarnings(stderr, rep.Warnings)
+		for _, f := range rep.Failures {
+			fmt.Fprintf(stderr, "maserpol: model failed: %s\n", f)
+		}
+		printReport(stdout, rep)
+	}
+	if err != nil {
+		if errors.Is(err, context.Canceled) {
+			return exitFailure
+		}
+		return report(stderr, err)
+	}
+	if rep.Failed > 0 {
+		fmt.Fprintf(stderr, "maserpol: %d of %d models failed (see manifest.json); maserpol run --resume retries them\n", rep.Failed, rep.InShard)
+		return exitFailure
+	}
+	return exitOK
+}
+
+func printReport(w io.Writer, rep *runs.Report) {
+	fmt.Fprintf(w, "run directory: %s\n", rep.Dir)
+	fmt.Fprintf(w, "  models: %d in the study", rep.Models)
+	if rep.InShard != rep.Models {
+		fmt.Fprintf(w, ", %d in this shard", rep.InShard)
+	}
+	fmt.Fprintf(w, "; %d computed now, %d finished before, %d failed, %d pending\n", rep.Ran, rep.Skipped, rep.Failed, rep.Pending)
+	fmt.Fprintf(w, "  summary:  %s (ECSV, one row per model and checkpoint)\n", rep.Summary)
+	fmt.Fprintf(w, "  spectra:  %s (ECSV, one table per model)\n", filepath.Join(rep.Dir, "spectra"))
+	fmt.Fprintf(w, "  manifest: %s\n", rep.Manifest)
+	if len(rep.Figures) > 0 {
+		fmt.Fprintf(w, "  figures:  %d files in %s (%s)\n", len(rep.Figures), filepath.Join(rep.Dir, "plots"), figureKinds(rep.Figures))
+	}
+}
+
+// figureKinds lists the distinct figure names without model prefixes.
+func figureKinds(paths []string) string {
+	seen := map[string]bool{}
+	var kinds []string
+	for _, p := range paths {
+		b := filepath.Base(p)
+		b = strings.TrimSuffix(b, filepath.Ext(b))
+		if i := strings.Index(b, "_"); i > 0 && b[0] == 'm' {
+			b = "<model>" + b[i:]
+		}
+		if !seen[b] {
+			seen[b] = true
+			kinds = append(kinds, b)
+		}
+	}
+	return strings.Join(kinds, ", ")
+}
+
+func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := flagsFor("plot", stderr)
+	formats := fs.String("format", "", "comma-separated figure `formats` among png, svg, pdf, eps (default: output.formats of the run's config.toml, else png,svg)")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return flagExit(err)
+	}
+	if len(pos) != 1 {
+		fs.Usage()
+		return exitInput
+	}
+	dir := pos[0]
+	if _, err := os.Stat(filepath.Join(dir, "summary.csv")); err != nil {
+		return report(stderr, usagef("%s is not a run directory with results (no summary.csv)", dir))
+	}
+	fm, _, err := figureFormats(*formats, dir)
+	if err != nil {
+		return report(stderr, err)
+	}
+	figs, err := runs.Plot(dir, fm)
+	if err != nil {
+		return report(stderr, err)
+	}
+	fmt.Fprintf(stdout, "figures: %d files in %s (%s)\n", len(figs), filepath.Join(dir, "plots"), figureKinds(figs))
+	return exitOK
+}
+
+func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	fs := flagsFor("merge", stderr)
+	formats := fs.String("format", "", "comma-separated figure `formats` (default: output.formats of the config)")
+	noPlots := fs.Bool("no-plots", false, "do not draw figures")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return flagExit(err)
+	}
+	if len(pos) < 2 {
+		fs.Usage()
+		return exitInput
+	}
+	man, err := runs.Merge(pos[0], pos[1:]...)
+	if err != nil {
+		return report(stderr, err)
+	}
+	done, failed, pending := 0, 0, 0
+	for _, m := range man.Models {
+		switch m.Status {
+		case runs.StatusDone:
+			done++
+		case runs.StatusFailed:
+			failed++
+		default:
+			pending++
+		}
+	}
+	fmt.Fprintf(stdout, "run directory: %s\n  models: %d done, %d failed, %d pending of %d\n  summary:  %s\n",
+		pos[0], done, failed, pending, len(man.Models), filepath.Join(pos[0], "summary.csv"))
+	if pending > 0 {
+		fmt.Fprintf(stderr, "maserpol: warning: %d models are in none of the sources (a shard missing?)\n", pending)
+	}
+	fm, plots, err := figureFormats(*formats, pos[0])
+	if err != nil {
+		return report(stderr, err)
+	}
+	if plots && !*noPlots && done > 0 {
+		figs, err := runs.Plot(pos[0], fm)
+		if err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stdout, "  figures:  %d files in %s\n", len(figs), filepath.Join(pos[0], "plots"))
+	}
+	if failed > 0 {
+		return exitFailure
+	}
+	return exitOK
+}
+
+// printWarnings prints each distinct warning once with the models it
+// concerns, in model order.
+func printWarnings(w io.Writer, ws []runs.Warning) {
+	var order []string
+	models := map[string][]string{}
+	for _, x := range ws {
+		if _, ok := models[x.Msg]; !ok {
+			order = append(order, x.Msg)
+		}
+		models[x.Msg] = append(models[x.Msg], x.Model)
+	}
+	for _, msg := range order {
+		ms := models[msg]
+		who := strings.Join(ms, ", ")
+		if len(ms) > 4 {
+			who = fmt.Sprintf("%s, %s ... %s (%d models)", ms[0], ms[1], ms[len(ms)-1], len(ms))
+		}
+		fmt.Fprintf(w, "maserpol: warning: %s: %s\n", who, msg)
+	}
+}
