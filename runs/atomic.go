@@ -15,34 +15,16 @@ const tmpMarker = ".tmp-"
 // directory, synced and renamed, so readers and crashes never see a
 // partial file.
 func writeFileAtomic(path string, data []byte) error {
-	dir, base := filepath.Split(path)
-	if dir == "" {
-		dir = "."
-	}
-	f, err := os.CreateTemp(dir, base+tmpMarker+"*")
-	if err != nil {
+	return writeAtomic(path, func(w io.Writer) error {
+		_, err := w.Write(data)
 		return err
-	}
-	tmp := f.Name()
-	_, err = f.Write(data)
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Chmod(tmp, 0o644)
-	}
-	if err == nil {
-		err = os.Rename(tmp, path)
-	}
-	if err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	return nil
+	})
 }
+
+// WriteFile writes data to path atomically: through a temporary file in the
+// same directory, synced and renamed into place. Commands use it for every
+// table they write outside a run directory.
+func WriteFile(path string, data []byte) error { return writeFileAtomic(path, data) }
 
 // writeAtomic streams what fill writes into a temporary file in the
 // directory of path and renames it into place, so large tables never sit

@@ -7,7 +7,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"runtime"
 	"strconv"
@@ -16,6 +15,7 @@ import (
 
 	"maserpol/config/units"
 	"maserpol/levels/species"
+	"maserpol/runs"
 	"maserpol/runs/figures"
 	"maserpol/runs/interpret"
 	"maserpol/transfer"
@@ -333,31 +333,8 @@ func numberPrefix(s string) int {
 	return i
 }
 
-// writeAtomically writes data to path through a temporary file in the
-// same directory, renamed into place: nothing half-written is left.
-func writeAtomically(path string, data []byte) error {
-	dir := filepath.Dir(path)
-	f, err := os.CreateTemp(dir, filepath.Base(path)+".tmp-*")
-	if err != nil {
-		return err
-	}
-	tmp := f.Name()
-	_, err = f.Write(data)
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Chmod(tmp, 0o644)
-	}
-	if err == nil {
-		err = os.Rename(tmp, path)
-	}
-	if err != nil {
-		os.Remove(tmp)
-		return fmt.Errorf("writing %s: %w", path, err)
-	}
-	return nil
-}
+// writeAtomically writes data to path without ever leaving half a file.
+func writeAtomically(path string, data []byte) error { return runs.WriteFile(path, data) }
 
 // saveFigure writes a figure to path; the format is the file extension.
 func saveFigure(s *figures.Stack, path string) ([]string, error) {

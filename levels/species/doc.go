@@ -33,5 +33,10 @@
 //	source = "..."                # optional provenance, kept in Species.Notes
 //
 // The meaning and normalization of each coupling is that of package levels.
+// The sign of g depends on the magneton: with "nuclear" the Zeeman term is
+// H_Z = -mu_N B (g_J J_z + ...), g > 0 a moment parallel to the angular
+// momentum; with "bohr" it is H_Z = +mu_B B (g_J J_z + ...), g > 0 an
+// electron-like moment (OH 2Pi(3/2) J=3/2 has g_J about +0.935), and nuclear
+// g-factors are written in Bohr magnetons with that sign (g_I = -g_N m_e/m_p).
 // Errors are *Error values naming the file, line, key and what is allowed.
 package species

@@ -45,7 +45,12 @@ func BranchOf(psi, tol float64) Branch {
 
 // Sample is what one checkpoint says about polarization against saturation.
 type Sample struct {
-	Saturation  float64 // R/Gamma
+	// Saturation is the beam's R/Gamma as a measurement gives it: T_b dOmega
+	// at the peak over Trajectory.SaturationTbdOmega, i.e. through
+	// R = A k T_b dOmega/(4 pi h nu). It is the sublevel-mean rate of the
+	// peak channel and differs from Checkpoint.Saturation (the largest rate
+	// over lines, weights included) by up to about 25 %, depending on theta.
+	Saturation  float64
 	Ml          float64 // m_l at the peak channel
 	Qb          float64 // Q_f/I at the peak, field frame
 	PV          float64 // (V_max - V_min)/I_peak
@@ -57,14 +62,21 @@ type Sample struct {
 type Curve []Sample
 
 // CurveOf extracts the reported quantities of a trajectory's checkpoints,
-// dropping checkpoints with a non-positive saturation (no log).
+// dropping checkpoints with a non-positive saturation (no log). The
+// saturation axis is the one a measured T_b dOmega gives (see Sample); a
+// trajectory without its T_b dOmega scale falls back to
+// Checkpoint.Saturation.
 func CurveOf(tr *transfer.Trajectory) Curve {
 	c := make(Curve, 0, len(tr.Checkpoints))
 	for _, cp := range tr.Checkpoints {
-		if !(cp.Saturation > 0) {
+		sat := cp.Saturation
+		if tr.SaturationTbdOmega > 0 && cp.TbdOmega > 0 {
+			sat = cp.TbdOmega / tr.SaturationTbdOmega
+		}
+		if !(sat > 0) {
 			continue
 		}
-		c = append(c, Sample{cp.Saturation, cp.Ml, cp.Qb, cp.PV, cp.RoverGOmega})
+		c = append(c, Sample{sat, cp.Ml, cp.Qb, cp.PV, cp.RoverGOmega})
 	}
 	sort.SliceStable(c, func(i, j int) bool { return c[i].Saturation < c[j].Saturation })
 	return c
