@@ -2,7 +2,6 @@ package levels
 
 import (
 	"fmt"
-	"math"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -182,5 +181,3 @@ func LandeG(J, I, F, gJ, gI float64) float64 {
 	ff, jj, ii := F*(F+1), J*(J+1), I*(I+1)
 	return gJ*(ff+jj-ii)/(2*ff) + gI*(ff+ii-jj)/(2*ff)
 }
-
-func isFinite(x float64) bool { return !math.IsNaN(x) && !math.IsInf(x, 0) }

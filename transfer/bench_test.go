@@ -2,6 +2,7 @@ package transfer
 
 import (
 	"context"
+	"fmt"
 	"testing"
 
 	"maserpol/levels"
@@ -76,5 +77,51 @@ func BenchmarkSyntheticJ65(b *testing.B) {
 			b.Fatal(err)
 		}
 		b.ReportMetric(float64(tj.Steps), "steps")
+	}
+}
+
+// BenchmarkLines times one integration step (two population solves over
+// every velocity class plus three exponential transfers over every channel)
+// for species with increasing numbers of line components, all at 256
+// channels, and reports the cost per line per channel and per line per
+// active velocity class: the measure of how the step scales with the
+// number of transitions. The hand-built J=1-0 and the sio-v1-j1-0 preset
+// have 3 lines, h2o-22 about 280 at 0.3 G, synthetic-j6-5 about 1700 at
+// 1 G.
+func BenchmarkLines(b *testing.B) {
+	cases := []struct {
+		name  string
+		field float64
+	}{{"j1-0", 10}, {"sio-v1-j1-0", 10}, {"h2o-22", 0.3}, {"synthetic-j6-5", 1}}
+	for _, c := range cases {
+		var tr *levels.Transition
+		if c.name == "j1-0" {
+			tr = j10Split(144, c.field)
+		} else {
+			sp, err := species.Preset(c.name)
+			if err != nil {
+				b.Fatal(err)
+			}
+			if tr, err = levels.NewTransition(sp, c.field); err != nil {
+				b.Fatal(err)
+			}
+		}
+		m, err := NewModel(tr, Params{Theta: deg(60), Doppler: 1000, Channels: 256})
+		if err != nil {
+			b.Fatal(err)
+		}
+		b.Run(fmt.Sprintf("%s/lines=%d", c.name, len(m.lines)), func(b *testing.B) {
+			b.ReportAllocs()
+			b.ResetTimer()
+			for i := 0; i < b.N; i++ {
+				if _, _, err := m.step(0, 0.1); err != nil {
+					b.Fatal(err)
+				}
+			}
+			ns := float64(b.Elapsed().Nanoseconds()) / float64(b.N)
+			nl := float64(len(m.lines))
+			b.ReportMetric(ns/(nl*float64(m.n)), "ns/line-channel")
+			b.ReportMetric(ns/(nl*float64(m.jhi-m.jlo)), "ns/line-class")
+		})
 	}
 }

@@ -25,9 +25,13 @@
 // exp(-(v/v_D)^2), with v_D = sqrt(2kT/m + v_turb^2) the 1/e half-width
 // (FWHM = 2 sqrt(ln 2) v_D), see DopplerWidth. A molecule of class u meets
 // line ab (offset Delta_ab = nu_ab - nu0) in the channel at
-// v = u - c Delta_ab/nu0. Off-grid positions are reached with a 4-point
-// cubic B-spline kernel whose transpose carries the inversions back to the
-// channels; the kernel is positive and broadens every line alike (variance
+// v = u - c Delta_ab/nu0. Class labels u are radio velocities too
+// (receding positive), i.e. u = -v_k with v_k the velocity along k (towards
+// the observer) of physics.md section 4; the sign change is harmless
+// because the Doppler profile is symmetric, phi(u) = phi(-u), and the
+// resonance is written in u throughout. Off-grid positions are reached
+// with a 4-point cubic B-spline kernel whose transpose carries the
+// inversions back to the channels; the kernel is positive and broadens every line alike (variance
 // dv^2/3), so it neither produces negative rates nor spurious V.
 //
 // # Polarization conventions
@@ -52,9 +56,22 @@
 // Theta). A q = +1 component emitted along +B carries positive helicity, so
 // with B_parallel > 0 the sigma+ component is RCP. Hence V > 0 on the
 // high-frequency (low-velocity) wing when the sigma+ component lies at the
-// higher frequency and B_parallel > 0: with H_Z = -mu B g J_z (package
-// levels) that is g < 0 in nuclear magnetons (e.g. SiO), or B pointing away
-// from the observer for g > 0. In the weak field, thin line:
+// higher frequency and B_parallel > 0. Where sigma+ lies follows from the
+// Zeeman term of package levels:
+//   - nuclear magnetons, H_Z = -mu_N B g J_z: sigma+ is at the higher
+//     frequency for B > 0 when g < 0 (e.g. SiO); for g > 0 the same V sign
+//     needs B pointing away from the observer (TestVSign);
+//   - Bohr magnetons (paramagnetic), H_Z = +mu_B B g J_z, electron sign: a
+//     hyperfine level shifts by +g_F mu_B B M, so in a line F -> F with the
+//     same g_F > 0 in both levels (the OH-like main lines, g_F = 1.25 g_J
+//     and 0.75 g_J with g_J > 0) sigma+ is shifted by +g_F mu_B B, to the
+//     higher frequency for B > 0: a field towards the observer gives V > 0
+//     (RCP) on the high-frequency, low-velocity wing (TestVSignBohr). As
+//     far as we recall (from memory, not checked against a source) this is
+//     the usual reading of OH Zeeman pairs: RCP at the lower velocity for a
+//     field towards the observer.
+//
+// In the weak field, thin line:
 // V(v) = cos(theta) dv_Z dI/dv, dv_Z = c SplitHzPerG B / nu0 (the sigma+
 // shift of levels.Component, in the sense of frequency).
 //
@@ -81,7 +98,9 @@
 // level, so the total pump rate is fixed: Isotropic p = 1; Anisotropic
 // p = 1 + Alignment (3<m_J^2> - J(J+1))/N, N = max over m_J of
 // |3 m_J^2 - J(J+1)| (so p >= 0 for |Alignment| <= 1; positive favours
-// |m_J| = J); Hyperfine p proportional to the weight of the state's F label.
+// |m_J| = J), applied to both levels with the same sign of Alignment, each
+// with its own J; Hyperfine p proportional to the weight of the state's F
+// label (UpperF, LowerF).
 //
 // # Transfer
 //
@@ -96,8 +115,10 @@
 // and of 0.2 in any inversion. A step that cannot meet the tolerance returns
 // a StepError naming the position and channel. In-source Faraday rotation is
 // RhoV = 2 FaradayCoefficient n_e B_parallel lambda^2 GainLength per unit s
-// (EVPA rotates at RhoV/2; B_parallel > 0 rotates counterclockwise, i.e.
-// positive rotation measure), and then the analytic operator with
+// (EVPA rotates at RhoV/2: B_parallel > 0, a field towards the observer,
+// gives a positive rotation measure and the EVPA increases,
+// counterclockwise on the sky north through east, by RhoV s/2 = RM lambda^2
+// in the absence of gain; TestFaradaySign), and then the analytic operator with
 // magneto-optical terms is used.
 //
 // # Outputs and validity

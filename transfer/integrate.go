@@ -112,6 +112,7 @@ func (m *Model) Run(ctx context.Context) (*Trajectory, error) {
 	if err := m.populate(m.cur, 0); err != nil {
 		return nil, err
 	}
+	tr.SeedSaturation = m.cur.sat
 	// Checkpoint levels, evenly spaced in log saturation.
 	targets := m.targets(m.cur.sat)
 	if len(targets) > 0 && m.cur.sat > p.FirstCheckpoint {

@@ -242,17 +242,6 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 	return nil
 }
 
-// populations copies the last solution into upper and lower (lengths nU, nL).
-func (rs *rateSolver) populations(upper, lower []float64) {
-	if rs.keepUpper {
-		copy(upper, rs.x)
-		copy(lower, rs.nEv)
-	} else {
-		copy(upper, rs.nEv)
-		copy(lower, rs.x)
-	}
-}
-
 // pumpWeights returns the relative pump weight of every eigenstate of st
 // for the pump pm (mean 1 over the states of the level, so the total pump
 // rate is fixed). See doc.go for the alignment form.
@@ -313,20 +302,4 @@ func lookupF(m map[float64]float64, f float64) (float64, bool) {
 		}
 	}
 	return 0, false
-}
-
-// gKE returns the decay rate (units of Gamma) of the upper or lower level.
-func (rs *rateSolver) gKE(upper bool) float64 {
-	if upper == rs.keepUpper {
-		return rs.gK
-	}
-	return rs.gE
-}
-
-// pump returns the pump rates of the upper or lower level.
-func (rs *rateSolver) pump(upper bool) []float64 {
-	if upper == rs.keepUpper {
-		return rs.pK
-	}
-	return rs.pE
 }

@@ -187,4 +187,63 @@ func TestPumpWeights(t *testing.T) {
 	if math.Abs(w7/w6-3) > 1e-12 {
 		t.Errorf("hyperfine pump: F=7/F=6 weight ratio %g, want 3", w7/w6)
 	}
+	// The alignment shapes the lower level's pump too, with the same sign
+	// (types.go, doc.go): in a model the lower pump is LowerPump times the
+	// aligned weights, and a lower state with the largest <m_J^2> (|m_J| =
+	// J_l = 5) is pumped more than one with the smallest for Alignment > 0.
+	pm := Pump{Kind: Anisotropic, Alignment: 0.5, LowerPump: 0.2}
+	m, err := NewModel(h, Params{Theta: 1, Doppler: 600, Pump: pm})
+	if err != nil {
+		t.Fatal(err)
+	}
+	wl, err := pumpWeights(pm, h.Lower, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	lp := m.rs.pump(false)
+	iMax, iMin := 0, 0
+	for i, s := range h.Lower.States {
+		if d := math.Abs(lp[i] - 0.2*m.rs.gKE(true)*wl[i]); d > 1e-12 {
+			t.Errorf("lower state %d: pump %g, want LowerPump x aligned weight %g", i, lp[i], 0.2*wl[i])
+		}
+		if s.MJ2 > h.Lower.States[iMax].MJ2 {
+			iMax = i
+		}
+		if s.MJ2 < h.Lower.States[iMin].MJ2 {
+			iMin = i
+		}
+	}
+	if !(lp[iMax] > lp[iMin]) {
+		t.Errorf("lower level: pump %g at <m_J^2> = %.3g, %g at %.3g; want more pumping at large |m_J| for Alignment > 0", lp[iMax], h.Lower.States[iMax].MJ2, lp[iMin], h.Lower.States[iMin].MJ2)
+	}
+}
+
+// Test-only accessors of rateSolver, for comparing its solution with the
+// independent full-system solve.
+
+// populations copies the last solution into upper and lower (lengths nU, nL).
+func (rs *rateSolver) populations(upper, lower []float64) {
+	if rs.keepUpper {
+		copy(upper, rs.x)
+		copy(lower, rs.nEv)
+	} else {
+		copy(upper, rs.nEv)
+		copy(lower, rs.x)
+	}
+}
+
+// gKE returns the decay rate (units of Gamma) of the upper or lower level.
+func (rs *rateSolver) gKE(upper bool) float64 {
+	if upper == rs.keepUpper {
+		return rs.gK
+	}
+	return rs.gE
+}
+
+// pump returns the pump rates of the upper or lower level.
+func (rs *rateSolver) pump(upper bool) []float64 {
+	if upper == rs.keepUpper {
+		return rs.pK
+	}
+	return rs.pE
 }

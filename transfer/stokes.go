@@ -109,19 +109,12 @@ func applyNoRho(eI, eQ, eU, eV, s float64, x [4]float64) [4]float64 {
 }
 
 // coshSeries returns cosh(sqrt z), sinh(sqrt z)/sqrt z and
-// (cosh(sqrt z) - 1)/z for z >= 0.
+// (cosh(sqrt z) - 1)/z for 0 <= z < 1e-2 (the caller's branch), by Taylor
+// series to z^4: truncation below 1e-12 relative.
 func coshSeries(z float64) (ch, sh, cm float64) {
-	if z < 1e-2 {
-		// Taylor series to z^4: truncation below 1e-12 relative.
-		cm = 1.0/2 + z*(1.0/24+z*(1.0/720+z*(1.0/40320+z/3628800)))
-		sh = 1 + z*(1.0/6+z*(1.0/120+z*(1.0/5040+z/362880)))
-		ch = 1 + z*cm
-		return
-	}
-	r := math.Sqrt(z)
-	ch = math.Cosh(r)
-	sh = math.Sinh(r) / r
-	cm = (ch - 1) / z
+	cm = 1.0/2 + z*(1.0/24+z*(1.0/720+z*(1.0/40320+z/3628800)))
+	sh = 1 + z*(1.0/6+z*(1.0/120+z*(1.0/5040+z/362880)))
+	ch = 1 + z*cm
 	return
 }
 

@@ -6,6 +6,7 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/unit/constant"
 )
 
 // TestOperatorMatchesMatExp checks the analytic evolution operator against
@@ -110,5 +111,56 @@ func TestFaradayCoefficient(t *testing.T) {
 	rm := FaradayCoefficient * 1e6 * 1e-10 * pc
 	if math.Abs(rm-0.812) > 0.0005 {
 		t.Errorf("RM coefficient %.5f rad m^-2, want 0.812", rm)
+	}
+}
+
+// TestFaradaySign holds the Faraday convention of doc.go: with B_parallel
+// > 0 (towards the observer) the rotation measure is positive and the EVPA
+// of a linearly polarized seed increases (counterclockwise on the sky,
+// north through east) by RM lambda^2, RM = FaradayCoefficient n_e B_par L
+// (the standard chi = chi_0 + RM lambda^2 with RM > 0 for a field towards
+// the observer; e.g. Rybicki & Lightman 1979, sect. 8.3). In the model's
+// units that is RhoV s/2 with L = s GainLength. The column is short
+// (unsaturated line-centre gain 1e-3), so the maser terms change the seed's
+// polarization by < 1e-6 and every channel, line or continuum, must show
+// the same rotation within 1e-6 rad. B_parallel < 0 (Field < 0 or theta >
+// 90 deg) must rotate the other way by the same amount.
+func TestFaradaySign(t *testing.T) {
+	const (
+		ne    = 1e3  // cm^-3
+		gain  = 1e-3 // unsaturated line-centre gain of the column
+		glen  = 1e14 // m per unit gain: path L = 1e11 m
+		field = 10.0 // G
+		chi0  = 0.35 // rad, seed EVPA on the sky
+		nu0   = 43.122e9
+	)
+	lambda := float64(constant.LightSpeedInVacuum) / nu0
+	for _, tc := range []struct {
+		b, th float64
+	}{{field, 60}, {-field, 60}, {field, 120}} {
+		bpar := tc.b * 1e-4 * math.Cos(deg(tc.th)) // T, along +k
+		want := FaradayCoefficient * ne * 1e6 * bpar * lambda * lambda * gain * glen
+		p := Params{Theta: deg(tc.th), Chi: deg(25), Doppler: 1000, Channels: 64, Gain: gain,
+			Seed:            Seed{Tb: 100, LinearFraction: 0.5, Angle: chi0},
+			ElectronDensity: ne, GainLength: glen}
+		tj := run(t, j10Split(2e3, tc.b), p)
+		c := tj.Checkpoints[len(tj.Checkpoints)-1]
+		if math.Abs(c.Gain-gain) > 1e-12 {
+			t.Fatalf("column gain %g, want %g", c.Gain, gain)
+		}
+		if math.Abs(want) < 0.3 || math.Abs(want) > 1.2 {
+			t.Fatalf("test design: rotation %g rad should be clearly nonzero and below pi/2", want)
+		}
+		if (want > 0) != (bpar > 0) {
+			t.Fatalf("FaradayCoefficient %g has the wrong sign", FaradayCoefficient)
+		}
+		for k := range c.I {
+			got := math.Remainder(0.5*math.Atan2(c.U[k], c.Q[k])-chi0, math.Pi)
+			if math.Abs(got-want) > 1e-6 {
+				t.Errorf("B = %g G, theta = %g deg, channel %d: EVPA rotated by %.7f rad, want %+.7f (RM lambda^2, B_parallel %+g T)", tc.b, tc.th, k, got, want, bpar)
+				break
+			}
+		}
+		t.Logf("B_parallel %+.3g G: EVPA rotation %+.5f rad", bpar*1e4, want)
 	}
 }

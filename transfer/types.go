@@ -21,8 +21,9 @@ const (
 type Pump struct {
 	Kind PumpKind
 	// Alignment is the signed anisotropy of the pump for Anisotropic
-	// (dimensionless, |Alignment| <= 1; 0 is isotropic). Positive favours
-	// the |m_J| = J states of the upper level (see doc.go).
+	// (dimensionless, |Alignment| <= 1; 0 is isotropic). It shapes the pump
+	// of both levels with the same sign: positive favours the |m_J| = J
+	// states of the upper and of the lower level (see doc.go).
 	Alignment float64
 	// UpperF and LowerF give relative pumping weights by F label for
 	// Hyperfine (missing F labels get weight 1).
@@ -108,6 +109,10 @@ type Trajectory struct {
 	// SaturationTbdOmega is T_b dOmega (K sr) of a beam with R/Gamma = 1
 	// in the unsplit line: 4 pi h nu Gamma / (A k).
 	SaturationTbdOmega float64
+	// SeedSaturation is the saturation R/Gamma (largest over lines, at the
+	// line centre) of the seed radiation alone, at s = 0; checkpoints below
+	// it cannot be recorded.
+	SeedSaturation float64
 	// Steps and Rejected count accepted and rejected integration steps.
 	Steps, Rejected int
 }

@@ -3,6 +3,7 @@ package transfer
 import (
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -77,5 +78,60 @@ func TestZeroFieldWarns(t *testing.T) {
 	}
 	if c.PV > 1e-12 {
 		t.Errorf("zero field: P_V = %g, want 0", c.PV)
+	}
+}
+
+// TestStepErrorPath forces the integrator's failure path: a local error
+// tolerance of 1e-30 (below rounding, set past Validate through the
+// unexported copy of the parameters) cannot be met by any step, so the step
+// size collapses below its floor. Run must return a *StepError whose
+// Position, Channel and Velocity locate the failure (finite, on the grid,
+// and named in the message), and no trajectory, so no NaN or partial output
+// reaches the caller. The same model then runs normally again with a sane
+// tolerance: the failure leaves no state behind.
+func TestStepErrorPath(t *testing.T) {
+	p := Params{Theta: deg(60), Doppler: 1000, Saturation: 10}
+	m, err := NewModel(j10Split(2e3, 10), p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m.p.Tolerance = 1e-30
+	tj, err := m.Run(context.Background())
+	var se *StepError
+	if !errors.As(err, &se) {
+		t.Fatalf("error %v (%T), want a *StepError", err, err)
+	}
+	if tj != nil {
+		t.Errorf("failed run returned a trajectory with %d checkpoints", len(tj.Checkpoints))
+	}
+	if math.IsNaN(se.Position) || math.IsInf(se.Position, 0) || se.Position < 0 {
+		t.Errorf("Position %g, want a finite gain >= 0", se.Position)
+	}
+	if se.Channel < 0 || se.Channel >= m.n || se.Velocity != m.v[se.Channel] {
+		t.Errorf("Channel %d (v = %g m/s), want a channel of the grid and its velocity", se.Channel, se.Velocity)
+	}
+	msg := err.Error()
+	for _, want := range []string{
+		fmt.Sprintf("at gain %.6g", se.Position),
+		fmt.Sprintf("channel %d", se.Channel),
+		fmt.Sprintf("v = %.4g km/s", se.Velocity/1e3),
+		"cannot meet the tolerance",
+	} {
+		if !strings.Contains(msg, want) {
+			t.Errorf("message %q does not contain %q", msg, want)
+		}
+	}
+	if strings.Contains(msg, "NaN") {
+		t.Errorf("message %q contains NaN", msg)
+	}
+	m.p.Tolerance = DefaultTolerance
+	again := run(t, m.tr, p) // a fresh model: the reference
+	tj, err = m.Run(context.Background())
+	if err != nil {
+		t.Fatalf("rerun after failure: %v", err)
+	}
+	a, b := tj.Checkpoints[len(tj.Checkpoints)-1], again.Checkpoints[len(again.Checkpoints)-1]
+	if a.Saturation != b.Saturation || a.Ml != b.Ml || a.PV != b.PV {
+		t.Errorf("rerun after failure differs from a fresh model: (%g, %g, %g) vs (%g, %g, %g)", a.Saturation, a.Ml, a.PV, b.Saturation, b.Ml, b.PV)
 	}
 }
