@@ -125,7 +125,8 @@
 //
 // Checkpoints are placed at FirstCheckpoint x 10^(i/CheckpointsPerDecade)
 // up to Saturation (or up to the total Gain when Gain > 0, plus the final
-// state), where saturation is the largest R_ab/Gamma over lines in the class
+// state; a gain-limited column that stays below FirstCheckpoint continues the
+// grid down to the seed, i negative), where saturation is the largest R_ab/Gamma over lines in the class
 // at the profile centre. Spectra are brightness temperatures in K (T_b dOmega
 // divided by BeamSolid). The rate equations neglect Zeeman coherences,
 // valid for R << g Omega; g Omega is 2 pi times the smallest energy

@@ -225,9 +225,16 @@ func (m *Model) targets(start float64) []float64 {
 	if p.Gain > 0 {
 		top = math.Inf(1)
 	}
-	for i := 0; ; i++ {
+	// A gain-limited column may never reach FirstCheckpoint (a thin or
+	// weakly amplifying maser): there the same log grid is continued down
+	// to the seed, so the history is recorded all the same.
+	i0 := 0
+	if p.Gain > 0 && start > 0 && start < p.FirstCheckpoint {
+		i0 = int(math.Floor(float64(p.CheckpointsPerDecade) * math.Log10(start/p.FirstCheckpoint)))
+	}
+	for i := i0; ; i++ {
 		v := p.FirstCheckpoint * math.Pow(10, float64(i)/float64(p.CheckpointsPerDecade))
-		if v > top*(1+1e-9) || i > 100*p.CheckpointsPerDecade {
+		if v > top*(1+1e-9) || i-i0 > 100*p.CheckpointsPerDecade {
 			break
 		}
 		if v > start {
