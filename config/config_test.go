@@ -9,7 +9,9 @@ import (
 	"strings"
 	"testing"
 
+	"maserpol/levels"
 	"maserpol/levels/species"
+	"maserpol/transfer"
 )
 
 // preset is the species the tests use; it is the documented default.
@@ -236,7 +238,8 @@ gamma_lower = "300 min^-1"
 solid_angle = 0.02
 [pump]
 kind = "hyperfine"
-upper_f = { "1" = 2.0, "5/2" = 0.5 }
+upper_f = { "1" = 2.0 }
+lower_f = { "0/2" = 0.5 }
 [seed]
 tb = "2 K"
 linear = 0.3
@@ -278,7 +281,7 @@ dir = "out/here"
 		{"GammaLower", p.GammaLower, 5},
 		{"BeamSolid", p.BeamSolid, 0.02},
 		{"UpperF[1]", p.Pump.UpperF[1], 2},
-		{"UpperF[2.5]", p.Pump.UpperF[2.5], 0.5},
+		{"LowerF[0]", p.Pump.LowerF[0], 0.5},
 		{"Seed.Tb", p.Seed.Tb, 2},
 		{"Seed.Linear", p.Seed.LinearFraction, 0.3},
 		{"Seed.Circular", p.Seed.CircularFraction, -0.2},
@@ -336,6 +339,7 @@ func TestErrors(t *testing.T) {
 		{"unknown table", base("[feild]\ntheta = \"3 deg\"\n"), "feild", 4, "unknown key", `"field"`, ""},
 		{"key in wrong table", base("[line]\ntheta = \"30 deg\"\n"), "line.theta", 5, "unknown key", `"field.theta"`, ""},
 		{"bad unit", base("theta = \"30 km\"\n"), "field.theta", 4, "unit", "", "deg"},
+		{"unknown unit", strings.Replace(base(""), "30 G", "3 furlong", 1), "field.strength", 3, "unknown unit", "", "mG"},
 		{"wrong kind unit", base("theta = \"30 km/s\"\n"), "field.theta", 4, "velocity", "", "deg"},
 		{"bare angle", base("theta = 30\n"), "field.theta", 4, "no unit", "", "deg"},
 		{"theta range", base("theta = \"200 deg\"\n"), "field.theta", 4, "out of range", "", "<= 180 deg"},
@@ -370,6 +374,11 @@ func TestErrors(t *testing.T) {
 		{"lower pump", base("[pump]\nlower_ratio = 1.0\n"), "pump.lower_ratio", 5, "uninverted", "", "gamma_lower/gamma_upper"},
 		{"bad name", "name = \"a b\"\n" + base(""), "name", 1, "bad name", "", "letters"},
 		{"bad F", base("[pump]\nkind = \"hyperfine\"\nupper_f = { \"x\" = 1.0 }\n"), "pump.upper_f.x", 6, "F label", "", "5/2"},
+		// SiO J = 1 -> 0 has no nuclear spin: F = J, so the only labels are 1 and 0.
+		{"absent upper F", base("[pump]\nkind = \"hyperfine\"\nupper_f = { \"1\" = 1.0, \"7.5\" = 1.0, \"99\" = 2.0 }\n"), "pump.upper_f.7.5", 6, "no upper level with F = 7.5", "", `"1"`},
+		// Ortho-water's effective I = 1 with J = 6: F = 5, 6, 7 (F = J + I ... |J - I|).
+		{"absent water F", strings.Replace(base("[pump]\nkind = \"hyperfine\"\nupper_f = { \"7.5\" = 1.0 }\n"), preset, "h2o-22", 1), "pump.upper_f.7.5", 6, "F = 7.5", "", `"5", "6", "7"`},
+		{"absent lower F", base("[pump]\nkind = \"hyperfine\"\nlower_f = { \"1\" = 1.0 }\n"), "pump.lower_f.1", 6, "no lower level with F = 1", "", `"0"`},
 	} {
 		if test.name == "table as scalar" {
 			test.doc = "species = \"" + preset + "\"\nfield = 3\n"
@@ -395,6 +404,9 @@ func TestErrors(t *testing.T) {
 			}
 			if s := e.Error(); !strings.HasPrefix(s, "dir/bad.toml") {
 				t.Errorf("message %q does not start with the file", s)
+			}
+			if s := e.Error(); strings.Count(s, "(allowed:") > 1 || strings.Contains(s, " a angle") {
+				t.Errorf("message %q repeats its allowed clause or misses an article", s)
 			}
 		})
 	}
@@ -434,7 +446,8 @@ turbulence = "0.2 km/s"
 channels = [128, 256]
 [pump]
 kind = "hyperfine"
-upper_f = { "1" = 2, "3/2" = 0.5 }
+upper_f = { "1" = 2 }
+lower_f = { "0/2" = 0.5 }
 [seed]
 tb = { dist = "loguniform", n = 3, seed = 9, from = 1, to = 1e3 }
 circular = { dist = "uniform", n = 3, from = -0.1, to = 0.1 }
@@ -490,6 +503,70 @@ func TestStarterParses(t *testing.T) {
 	}
 	if _, err := Starter("no-such-species"); err == nil {
 		t.Error("Starter accepted an unknown species")
+	}
+}
+
+// StarterNamed names the study and its run directory after the file, and
+// picks per-species values that a run can use as they are.
+func TestStarterNamed(t *testing.T) {
+	for _, c := range []struct{ species, name, want string }{
+		{"h2o-22", "water", "water"},
+		{"", "my water", "my-water"},
+		{"", "", "example"},
+		{"", "???", "example"},
+	} {
+		s, err := StarterNamed(c.species, c.name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		st, err := Parse([]byte(s), "elsewhere.toml")
+		if err != nil {
+			t.Fatalf("StarterNamed(%q, %q) does not parse: %v", c.species, c.name, err)
+		}
+		if !strings.Contains(s, "\nname = \""+c.want+"\"\n") || st.Output.Dir != "runs/"+c.want {
+			t.Errorf("StarterNamed(%q, %q): name/dir %q, want %q and runs/%s", c.species, c.name, st.Output.Dir, c.want, c.want)
+		}
+	}
+	for _, name := range species.Names() {
+		s, err := StarterNamed(name, name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		p := mustParse(t, s).Models[0].Params
+		tr, err := levels.NewTransition(p.Species, p.Field)
+		if err != nil {
+			t.Fatal(err)
+		}
+		m, err := transfer.NewModel(tr, p)
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		v := m.Velocity()
+		// transfer warns below 4 channels per Doppler width.
+		if per := p.Doppler / (v[1] - v[0]); per < 4 {
+			t.Errorf("%s: %.2g channels per Doppler width", name, per)
+		}
+		rg := p.Saturation * p.GammaUpper / m.GOmega() // Gamma_u = Gamma_l: the reference Gamma
+		switch name {
+		case "sio-v1-j1-0", "hcn-like-j1-0", "oh-like-main":
+			// Valid over the whole run (physics.md section 4).
+			if rg > 0.1 {
+				t.Errorf("%s: R/gOmega = %.3g at the end of the run", name, rg)
+			}
+		default:
+			// Valid over most of the run: over at least half of its
+			// decades of saturation.
+			valid := p.Saturation * 0.1 / rg
+			if math.Log(valid/p.FirstCheckpoint) < 0.5*math.Log(p.Saturation/p.FirstCheckpoint) {
+				t.Errorf("%s: valid up to saturation %.3g of %.3g only", name, valid, p.Saturation)
+			}
+		}
+		if !strings.Contains(s, "# Validity: ") {
+			t.Errorf("%s: starter does not state its validity", name)
+		}
+	}
+	if s, _ := StarterNamed("oh-like-main", ""); !strings.Contains(s, "\nstrength = \"3 mG\"\n") {
+		t.Errorf("OH-like starter field is not 3 mG:\n%s", s)
 	}
 }
 

@@ -119,11 +119,21 @@
 // Study.Resolved is the configuration with every default filled in, the
 // sweeps kept as written (ranges and draws with their defaults and the
 // group seed), in the order of the key reference; Study.Hash is its SHA-256
-// in hex. A species preset keeps its name; a species file path is made
-// absolute so that the copy in a run directory still finds the file; an
-// inline [species] table is kept as a table. Parsing Resolved gives the
-// same models, and its own Resolved is byte-identical.
+// in hex. The hash must change whenever the physics does, so the species
+// enters it by content: a species preset keeps its name, followed by a
+// comment with the SHA-256 of the preset's definition in this program (a
+// preset changed in a later version changes the hash); a species file is
+// copied in as an inline [species] table (its decoded keys, so comments in
+// the file do not matter), which makes a run directory's config.toml
+// self-contained; an inline [species] table is kept as a table. Parsing
+// Resolved gives the same models, and its own Resolved is byte-identical.
 //
-// Starter writes a commented starter configuration, every key with its
-// unit, default and allowed range.
+// Pump weights (pump.upper_f, pump.lower_f) must name F labels the level
+// has: the zero-field multiplets of its hyperfine structure.
+//
+// Starter and StarterNamed write a commented starter configuration, every
+// key with its unit, default and allowed range, named after the file
+// (output.dir "runs/<name>"), with a field, line width, channel grid and
+// saturation chosen for the species and a note on where R/(g Omega) <= 0.1
+// holds.
 package config

@@ -3,6 +3,7 @@ package config_test
 import (
 	"fmt"
 	"log"
+	"strings"
 
 	"maserpol/config"
 )
@@ -45,4 +46,26 @@ func ExampleError() {
 	fmt.Println(err)
 	// Output:
 	// study.toml:4: key field.thta: unknown key "thta" (allowed: "strength", "theta", "chi"); did you mean "theta"?
+}
+
+// A starter config for 22 GHz water, named after its file water.toml.
+func ExampleStarterNamed() {
+	text, err := config.StarterNamed("h2o-22", "water")
+	if err != nil {
+		log.Fatal(err)
+	}
+	for _, line := range strings.Split(text, "\n") {
+		for _, key := range []string{"name = ", "strength = ", "doppler = ", "saturation = ", "dir = ", "# Validity"} {
+			if strings.HasPrefix(line, key) {
+				fmt.Println(line)
+			}
+		}
+	}
+	// Output:
+	// # Validity: R/gOmega <= 0.1 up to saturation R/Gamma = 24; the checkpoints above it (to 100) are outside validity.
+	// name = "water"
+	// strength = "300 mG"
+	// doppler = "0.6 km/s"
+	// saturation = 100.0
+	// dir = "runs/water"
 }

@@ -95,8 +95,13 @@ type parsed struct {
 
 	species     *levels.Species
 	speciesText string // as written, for Model.Species
-	speciesOut  string // resolved value of the species key ("" for inline)
-	speciesTbl  map[string]any
+	speciesOut  string // resolved value of the species key: the preset name ("" for a table)
+	// speciesDigest is the hex SHA-256 of a preset's definition; it is
+	// written into the resolved config so that it enters the hash.
+	speciesDigest string
+	// speciesTbl is the species as an inline table: written so, or the
+	// decoded content of a species file.
+	speciesTbl map[string]any
 }
 
 func (ps *parser) parse(data []byte) (*Study, *Error) {
@@ -132,6 +137,9 @@ func (ps *parser) parse(data []byte) (*Study, *Error) {
 		}
 	}
 	if err := ps.resolveSpecies(pd); err != nil {
+		return nil, err
+	}
+	if err := ps.checkFLabels(pd); err != nil {
 		return nil, err
 	}
 	return ps.expand(pd, specs)
@@ -305,6 +313,73 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 		pd.weights[path] = w
 	}
 	return nil
+}
+
+// checkFLabels rejects pump weights for F labels the species does not
+// have: a weight on an absent level would silently do nothing.
+func (ps *parser) checkFLabels(pd *parsed) *Error {
+	for _, lv := range []struct {
+		path  string
+		level levels.Level
+	}{{"pump.upper_f", pd.species.Upper}, {"pump.lower_f", pd.species.Lower}} {
+		w := pd.weights[lv.path]
+		if len(w) == 0 {
+			continue
+		}
+		fs, err := fLabels(lv.level)
+		if err != nil {
+			return ps.err(lv.path, "", "species %s: %v", pd.species.Name, err)
+		}
+		have := map[float64]bool{}
+		var names []string
+		for _, f := range fs {
+			have[f] = true
+			names = append(names, strconv.Quote(halfText(f)))
+		}
+		t, _ := lookupRaw(pd.raw, &spec{table: "pump", name: strings.TrimPrefix(lv.path, "pump.")})
+		tbl, _ := t.(map[string]any)
+		for _, k := range sortedKeys(tbl) {
+			f, _ := parseF(k)
+			if have[f] {
+				continue
+			}
+			key := lv.path + "." + k
+			e := ps.err(key, "the F labels of this level: "+strings.Join(names, ", "),
+				"species %s has no %s level with F = %s", pd.species.Name, strings.TrimSuffix(strings.TrimPrefix(lv.path, "pump."), "_f"), k)
+			if e.Line == 0 && ps.pos != nil {
+				e.Line = ps.pos.Line(lv.path)
+			}
+			return e
+		}
+	}
+	return nil
+}
+
+// fLabels returns the distinct zero-field F labels of a level, sorted: the
+// multiplets of its hyperfine Hamiltonian (levels.Solver).
+func fLabels(l levels.Level) ([]float64, error) {
+	s, err := levels.NewSolver(l)
+	if err != nil {
+		return nil, err
+	}
+	seen := map[float64]bool{}
+	var fs []float64
+	for _, m := range s.Multiplets() {
+		if !seen[m.F] {
+			seen[m.F] = true
+			fs = append(fs, m.F)
+		}
+	}
+	sort.Float64s(fs)
+	return fs, nil
+}
+
+// halfText writes a multiple of 1/2 as "2" or "5/2".
+func halfText(f float64) string {
+	if t := int(math.Round(2 * f)); t%2 != 0 {
+		return strconv.Itoa(t) + "/2"
+	}
+	return strconv.FormatFloat(f, 'g', -1, 64)
 }
 
 // parseF reads an F label: "2", "1.5" or "3/2".

@@ -21,8 +21,17 @@ func (ps *parser) resolved(pd *parsed, specs []*spec) []byte {
 	var b bytes.Buffer
 	b.WriteString("# maserpol configuration, resolved: every default filled in, sweeps as written.\n")
 	sp := pd.species
-	fmt.Fprintf(&b, "# species %s: %s rest frequency, %s.\n\n", sp.Name,
+	fmt.Fprintf(&b, "# species %s: %s rest frequency, %s.\n", sp.Name,
 		units.Format(sp.Frequency, units.Frequency, "GHz"), magnetonName(sp))
+	switch {
+	case pd.speciesDigest != "":
+		// Part of the hashed text: a preset edited in a later program
+		// version gives another config hash.
+		fmt.Fprintf(&b, "# species preset %s, definition sha256 %s.\n", pd.speciesOut, pd.speciesDigest)
+	case pd.speciesTbl != nil:
+		b.WriteString("# species: the [species] table at the end holds the full definition (this file is self-contained).\n")
+	}
+	b.WriteString("\n")
 	table := ""
 	for _, s := range specs {
 		if s.table != table {

@@ -2,6 +2,8 @@ package config
 
 import (
 	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"os"
 	"path/filepath"
@@ -10,6 +12,7 @@ import (
 
 	"github.com/BurntSushi/toml"
 
+	"maserpol/levels"
 	"maserpol/levels/species"
 )
 
@@ -46,7 +49,19 @@ func (ps *parser) resolveSpecies(pd *parsed) *Error {
 		if !isPath {
 			ref = v
 		}
-		sp, err := species.Resolve(ref)
+		var sp *levels.Species
+		var err error
+		var data []byte
+		if isPath {
+			// Read the file once: the same bytes are parsed and embedded.
+			if data, err = os.ReadFile(ref); err == nil {
+				sp, err = species.Parse(data, ref)
+			} else {
+				sp, err = species.Resolve(ref)
+			}
+		} else {
+			sp, err = species.Resolve(ref)
+		}
 		var se *species.Error
 		if err != nil && isPath && errors.As(err, &se) && se.Line > 0 {
 			// An error inside the species file: report it where it is.
@@ -67,14 +82,28 @@ func (ps *parser) resolveSpecies(pd *parsed) *Error {
 		}
 		pd.species = sp
 		pd.speciesText = v
-		pd.speciesOut = v
 		if isPath {
-			// The resolved config lives in the run directory: keep a path
-			// that still leads to the file from there.
-			if abs, err := filepath.Abs(ref); err == nil {
-				pd.speciesOut = abs
+			// The resolved config carries the file's content as an inline
+			// [species] table: the run directory's config.toml is then
+			// self-contained, and its hash changes with the physics in the
+			// file (a path alone would not).
+			tbl := map[string]any{}
+			if _, err := toml.Decode(string(data), &tbl); err != nil {
+				return ps.err("species", speciesAllowed(), "species file %s: %v", ref, err)
 			}
+			pd.speciesTbl = tbl
+			break
 		}
+		// A preset keeps its name; the digest of its definition enters the
+		// resolved config, so a preset that changes between program
+		// versions changes the config hash.
+		src, err := species.PresetSource(v)
+		if err != nil {
+			return ps.err("species", speciesAllowed(), "species %q: %v", v, err)
+		}
+		sum := sha256.Sum256(src)
+		pd.speciesOut = v
+		pd.speciesDigest = hex.EncodeToString(sum[:])
 	case map[string]any:
 		var buf bytes.Buffer
 		if err := toml.NewEncoder(&buf).Encode(v); err != nil {

@@ -2,6 +2,8 @@ package config
 
 import (
 	"bytes"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"os"
 	"path/filepath"
@@ -15,7 +17,8 @@ import (
 )
 
 // A species file path is relative to the config file's directory; the
-// resolved config carries it absolute so that it works from a run directory.
+// resolved config carries the file's content as an inline table, so that
+// it is self-contained and its hash follows the physics in the file.
 func TestSpeciesFile(t *testing.T) {
 	src, err := species.PresetSource(preset)
 	if err != nil {
@@ -25,7 +28,8 @@ func TestSpeciesFile(t *testing.T) {
 	if err := os.MkdirAll(filepath.Join(dir, "sp"), 0o755); err != nil {
 		t.Fatal(err)
 	}
-	if err := os.WriteFile(filepath.Join(dir, "sp", "mine.toml"), src, 0o644); err != nil {
+	abs := filepath.Join(dir, "sp", "mine.toml")
+	if err := os.WriteFile(abs, src, 0o644); err != nil {
 		t.Fatal(err)
 	}
 	cfg := filepath.Join(dir, "study.toml")
@@ -43,10 +47,10 @@ func TestSpeciesFile(t *testing.T) {
 	if a.Models[0].Species != "sp/mine.toml" {
 		t.Errorf("Model.Species = %q, want the path as written", a.Models[0].Species)
 	}
-	abs := filepath.Join(dir, "sp", "mine.toml")
-	if !bytes.Contains(a.Resolved, []byte(tomlString(abs))) {
-		t.Errorf("resolved config lacks the absolute species path:\n%s", a.Resolved)
+	if bytes.Contains(a.Resolved, []byte("mine.toml")) || !bytes.Contains(a.Resolved, []byte("\n[species]\n")) {
+		t.Errorf("resolved config should hold the species inline, not its path:\n%s", a.Resolved)
 	}
+	// The resolved config runs anywhere, even with the species file gone.
 	run := filepath.Join(dir, "runs", "x")
 	if err := os.MkdirAll(run, 0o755); err != nil {
 		t.Fatal(err)
@@ -54,12 +58,42 @@ func TestSpeciesFile(t *testing.T) {
 	if err := os.WriteFile(filepath.Join(run, "config.toml"), a.Resolved, 0o644); err != nil {
 		t.Fatal(err)
 	}
+	if err := os.Rename(abs, abs+".away"); err != nil {
+		t.Fatal(err)
+	}
 	b, err := Load(filepath.Join(run, "config.toml"))
 	if err != nil {
 		t.Fatalf("resolved config in a run directory: %v", err)
 	}
-	if !reflect.DeepEqual(a.Models[0].Params, b.Models[0].Params) || !bytes.Equal(a.Resolved, b.Resolved) {
+	if !reflect.DeepEqual(a.Models[0].Params, b.Models[0].Params) || !bytes.Equal(a.Resolved, b.Resolved) || a.Hash != b.Hash {
 		t.Error("resolved config with a species file is not a fixed point")
+	}
+	if err := os.Rename(abs+".away", abs); err != nil {
+		t.Fatal(err)
+	}
+
+	// Changing the physics in the species file changes the hash; changing
+	// only its comments does not.
+	for _, c := range []struct {
+		name, old, new string
+		same           bool
+	}{
+		{"rotational g", "g = -0.155", "g = -0.30", false},
+		{"comment only", "# SiO", "#  SiO", true},
+	} {
+		if !strings.Contains(string(src), c.old) {
+			t.Fatalf("%s: preset text lacks %q", c.name, c.old)
+		}
+		if err := os.WriteFile(abs, []byte(strings.Replace(string(src), c.old, c.new, 1)), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		e, err := Load(cfg)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if same := e.Hash == a.Hash; same != c.same {
+			t.Errorf("%s: hash unchanged = %v, want %v", c.name, same, c.same)
+		}
 	}
 
 	// An error inside the species file is reported in that file.
@@ -71,6 +105,25 @@ func TestSpeciesFile(t *testing.T) {
 	var e *Error
 	if !errors.As(err, &e) || e.File != abs || e.Line == 0 || !strings.Contains(e.Key, "JJ") {
 		t.Errorf("species file error %#v, want the species file, line and key", err)
+	}
+}
+
+// A preset is kept by name, and the digest of its definition enters the
+// hash: a preset changed in a later program version changes config_hash.
+func TestPresetDigest(t *testing.T) {
+	src, err := species.PresetSource(preset)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := mustParse(t, base(""))
+	sum := sha256.Sum256(src)
+	line := "# species preset " + preset + ", definition sha256 " + hex.EncodeToString(sum[:])
+	if !bytes.Contains(a.Resolved, []byte(line)) || !bytes.Contains(a.Resolved, []byte("species = \""+preset+"\"")) {
+		t.Errorf("resolved config lacks the preset name or digest %q:\n%s", line, a.Resolved)
+	}
+	other := mustParse(t, strings.Replace(base(""), preset, "h2o-22", 1))
+	if other.Hash == a.Hash {
+		t.Error("two presets give one hash")
 	}
 }
 

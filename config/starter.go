@@ -2,10 +2,15 @@ package config
 
 import (
 	"fmt"
+	"math"
+	"regexp"
+	"strconv"
 	"strings"
 
+	"maserpol/config/units"
 	"maserpol/levels"
 	"maserpol/levels/species"
+	"maserpol/transfer"
 )
 
 // DefaultSpecies is the species of a starter config when none is named.
@@ -22,21 +27,31 @@ var commented = map[string]bool{
 }
 
 // Starter returns a commented starter configuration for the named species
-// (a preset or a species file path; DefaultSpecies when empty). Every key
-// is present with its unit, default and allowed range; it parses as it is.
-func Starter(name string) (string, error) {
-	if name == "" {
-		name = DefaultSpecies
+// (a preset or a species file path; DefaultSpecies when empty), for a study
+// named "example". See StarterNamed.
+func Starter(speciesName string) (string, error) {
+	return StarterNamed(speciesName, "")
+}
+
+// StarterNamed returns a commented starter configuration for the named
+// species (a preset or a species file path; DefaultSpecies when empty) and
+// study name, with output.dir "runs/<name>". A name that is not a valid
+// study name is cleaned (other characters become '-'); an empty one is
+// "example". Every key is present with its unit, default and allowed
+// range, and the field, line width, channels and saturation are chosen
+// for the species (see starterValues); it parses as it is.
+func StarterNamed(speciesName, name string) (string, error) {
+	if speciesName == "" {
+		speciesName = DefaultSpecies
 	}
-	sp, err := species.Resolve(name)
+	sp, err := species.Resolve(speciesName)
 	if err != nil {
-		return "", fmt.Errorf("species %q: %v (presets: %s)", name, err, strings.Join(species.Names(), ", "))
+		return "", fmt.Errorf("species %q: %v (presets: %s)", speciesName, err, strings.Join(species.Names(), ", "))
 	}
-	// A field that gives a visible Zeeman effect: paramagnetic species split
-	// by MHz per gauss, closed-shell ones by ~1 kHz per gauss (common practice).
-	strength := `"30 G"`
-	if sp.Magneton == levels.Bohr {
-		strength = `"5 mG"`
+	name = cleanName(name)
+	sv, err := starterValues(sp, speciesName)
+	if err != nil {
+		return "", fmt.Errorf("species %q: %v", speciesName, err)
 	}
 	var b strings.Builder
 	b.WriteString(`# maserpol model configuration.
@@ -51,7 +66,10 @@ func Starter(name string) (string, error) {
 # The study is the product of all lists and ranges; random draws with the
 # same n are one Latin-hypercube axis of n models.
 `)
-	b.WriteString(fmt.Sprintf("# Species %s: rest frequency %.6g GHz.\n", sp.Name, sp.Frequency/1e9))
+	fmt.Fprintf(&b, "# Species %s: rest frequency %.6g GHz.\n", sp.Name, sp.Frequency/1e9)
+	for _, s := range sv.notes {
+		fmt.Fprintf(&b, "# %s\n", s)
+	}
 	table := ""
 	for _, s := range schema() {
 		if s.table != table {
@@ -63,12 +81,22 @@ func Starter(name string) (string, error) {
 			val = s.def
 		}
 		switch s.path() {
-		case "species":
+		case "name":
 			val = tomlString(name)
+		case "species":
+			val = tomlString(speciesName)
 		case "field.strength":
-			val = strength
+			val = tomlString(sv.field)
+		case "line.doppler":
+			val = tomlString(sv.doppler)
+		case "line.channels":
+			val = fmt.Sprint(sv.channels)
+		case "line.span":
+			val = tomlString(sv.span)
+		case "column.saturation":
+			val = floatText(sv.saturation)
 		case "output.dir":
-			val = `"runs/example"`
+			val = tomlString("runs/" + name)
 		}
 		fmt.Fprintf(&b, "# %s.\n", upperFirst(s.doc))
 		var notes []string
@@ -95,9 +123,304 @@ func Starter(name string) (string, error) {
 	return b.String(), nil
 }
 
+var notNameChar = regexp.MustCompile(`[^A-Za-z0-9._-]+`)
+
+// cleanName makes a valid study name of s: "" becomes "example".
+func cleanName(s string) string {
+	s = strings.Trim(notNameChar.ReplaceAllString(s, "-"), "-._")
+	if len(s) > 100 {
+		s = s[:100]
+	}
+	if !nameRE.MatchString(s) {
+		return "example"
+	}
+	return s
+}
+
 func upperFirst(s string) string {
 	if s == "" {
 		return s
 	}
 	return strings.ToUpper(s[:1]) + s[1:]
+}
+
+// starter holds the species-dependent values of a starter config.
+type starter struct {
+	field, doppler, span string
+	channels             int
+	saturation           float64
+	notes                []string // comment lines explaining the choice
+}
+
+// Typical observed conditions of the real-molecule presets. Values from
+// memory, common practice in the maser literature: SiO masers of evolved
+// stars show fields of a few gauss and line widths of ~1 km/s; 22 GHz
+// water masers in star-forming regions show fields of a few hundred mG
+// and thermal widths of 400 K water (0.6 km/s); OH main-line masers are
+// narrow (~0.3 km/s, thermal at ~100 K). Other species get their field
+// from their Zeeman splitting alone (starterValues).
+var typical = map[string]struct{ field, doppler string }{
+	"sio-v1-j1-0":  {"3 G", "1 km/s"},
+	"h2o-22":       {"300 mG", "0.6 km/s"},
+	"oh-like-main": {"", "0.3 km/s"},
+}
+
+// Starter run targets.
+const (
+	// validLimit is the largest R/(g Omega) where the populations-only
+	// model holds (physics.md section 4; transfer.Checkpoint.Valid).
+	validLimit        = 0.1
+	starterSaturation = 100.0 // well saturated, the regime of bright masers
+	// starterPerDoppler is the number of channels per Doppler width the
+	// starter aims at (transfer warns below 4).
+	starterPerDoppler  = 12
+	maxStarterChannels = 8192
+)
+
+// starterValues chooses the field, line width, channel grid and final
+// saturation of a starter config for sp (name: the preset name or path as
+// given).
+//
+// The field: the typical one of the preset when known; else, for a
+// paramagnetic species (Bohr magneton), the field whose largest weak-field
+// Zeeman shift is 3 Doppler widths (resolved Zeeman pairs, as observed in
+// OH); for a closed-shell one, the smallest field of the 1-2-3-5 series
+// with R/(g Omega) <= 0.1 up to the final saturation (the validity of the
+// populations-only model over the whole run; physics.md section 4),
+// keeping the shift below 5 % of the Doppler width (splitting << width).
+// The channels: about 12 per Doppler width over the automatic span, at
+// least 256 and at most 8192; when the lines spread too far for that (OH's
+// satellite lines lie 50 MHz from the main lines), the span is narrowed
+// to the strong lines. The notes state the validity range of the result.
+func starterValues(sp *levels.Species, name string) (*starter, error) {
+	comps, err := levels.Components(sp)
+	if err != nil {
+		return nil, err
+	}
+	sv := &starter{saturation: starterSaturation, doppler: "1 km/s"}
+	t := typical[name]
+	if t.doppler != "" {
+		sv.doppler = t.doppler
+	}
+	vd, _ := units.Parse(sv.doppler, units.Velocity)
+	strongest := 0.0
+	for _, c := range comps {
+		strongest = math.Max(strongest, c.Strength)
+	}
+	maxShift := 0.0 // largest weak-field shift of the strong components, m/s per G
+	for _, c := range comps {
+		if c.Strength >= 0.2*strongest {
+			maxShift = math.Max(maxShift, math.Abs(c.SplitKmsPerG)*1e3)
+		}
+	}
+	if maxShift == 0 {
+		return nil, fmt.Errorf("no Zeeman splitting in the strong components: V and the field cannot be modelled")
+	}
+	// The starter keeps the default decay rates, so transfer's reference
+	// Gamma (their harmonic mean) is DefaultGamma.
+	gamma := transfer.DefaultGamma
+	rEnd := sv.saturation * gamma // stimulated rate at the end of the run, s^-1
+
+	// One solver for every field tried: the zero-field structure is
+	// built once.
+	ts, err := levels.NewTransitionSolver(sp)
+	if err != nil {
+		return nil, err
+	}
+	solve := func(b float64) (*levels.Transition, error) {
+		tr := new(levels.Transition)
+		if err := ts.Solve(b, tr); err != nil {
+			return nil, err
+		}
+		return tr, nil
+	}
+
+	// The channel grid for a field: the automatic span when about 12
+	// channels per Doppler width fit in 8192 channels, else a span over
+	// the strong components, centred where transfer centres the grid.
+	grid := func(b float64) (span, width float64, channels int, err error) {
+		tr, err := solve(b)
+		if err != nil {
+			return 0, 0, 0, err
+		}
+		maxS := 0.0
+		for _, l := range tr.Lines {
+			maxS = math.Max(maxS, l.Strength)
+		}
+		c := levels.SpeedOfLight
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for _, l := range tr.Lines {
+			if l.Strength > 1e-12*maxS { // the lines transfer keeps
+				v := -c * l.Offset / sp.Frequency
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		width = hi - lo + 8*vd // transfer's automatic span: 4 Doppler widths beyond the lines
+		if starterPerDoppler*width/vd > maxStarterChannels {
+			mid := (lo + hi) / 2
+			half := 0.0
+			for _, cp := range comps {
+				if cp.Strength >= 0.2*strongest {
+					v := -c * cp.Offset / sp.Frequency
+					half = math.Max(half, math.Abs(v-mid)+b*maxShift)
+				}
+			}
+			span = math.Ceil(2*(half+4*vd)/1e3) * 1e3 // whole km/s
+			width = span
+		}
+		channels = 256
+		for channels < maxStarterChannels && float64(channels) < starterPerDoppler*width/vd {
+			channels *= 2
+		}
+		return span, width, channels, nil
+	}
+	gOmegaAt := func(b float64) (float64, error) {
+		span, _, n, err := grid(b)
+		if err != nil {
+			return 0, err
+		}
+		return gOmega(solve, b, vd, span, n)
+	}
+
+	var b float64 // gauss
+	switch {
+	case t.field != "":
+		b, _ = units.Parse(t.field, units.Field)
+		sv.notes = append(sv.notes, "Field and line width: values typical of observed masers of this line (common practice).")
+	case sp.Magneton == levels.Bohr:
+		b = nearestNice(3 * vd / maxShift)
+		sv.notes = append(sv.notes, fmt.Sprintf("Field: largest Zeeman shift %.2g km/s, about 3 Doppler widths (resolved Zeeman pairs).", b*maxShift/1e3))
+	default:
+		limit := 0.05 * vd / maxShift
+		best, bestG, found := 0.0, 0.0, false
+		for _, x := range niceSeries(1e-3, limit) {
+			g, err := gOmegaAt(x)
+			if err != nil {
+				return nil, err
+			}
+			if g > bestG {
+				best, bestG = x, g
+			}
+			if rEnd/g <= validLimit {
+				best, found = x, true
+				break
+			}
+		}
+		if best == 0 {
+			best = 1e-3 // no splitting at all on the candidates
+		}
+		b = best
+		if found {
+			sv.notes = append(sv.notes, "Field: the smallest with R/gOmega <= 0.1 over the whole run (Zeeman shift < 5 % of the Doppler width).")
+		} else {
+			sv.notes = append(sv.notes, "Field: the one with the largest g Omega while the Zeeman shift stays < 5 % of the Doppler width.")
+		}
+	}
+	sv.field = fieldText(b)
+	span, width, n, err := grid(b)
+	if err != nil {
+		return nil, err
+	}
+	sv.channels = n
+	sv.span = "0 km/s"
+	if span > 0 {
+		sv.span = units.Format(span, units.Velocity, "km/s")
+		sv.notes = append(sv.notes, "Span: the strong components only; weaker lines outside it are ignored (transfer warns).")
+	}
+	if per := float64(n-1) * vd / width; per < 4 {
+		sv.notes = append(sv.notes, fmt.Sprintf("Channels: only %.2g per Doppler width; more resolve the line better.", per))
+	}
+
+	// Validity of the populations-only model at that field.
+	g, err := gOmega(solve, b, vd, span, n)
+	if err != nil {
+		return nil, err
+	}
+	if g > 0 {
+		satValid := validLimit * g / gamma
+		first := transfer.DefaultFirstCheckpoint
+		switch {
+		case satValid >= sv.saturation:
+			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega = %.2g at the final saturation %g: the populations-only model holds over the whole run.", rEnd/g, sv.saturation))
+		case math.Log(satValid/first) >= 0.5*math.Log(sv.saturation/first):
+			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega <= 0.1 up to saturation R/Gamma = %.2g; the checkpoints above it (to %g) are outside validity.", satValid, sv.saturation))
+		case satValid > 10*first:
+			// Most of the run would be outside: end it where validity ends.
+			sv.saturation = niceBelow(satValid)
+			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega <= 0.1 only up to saturation R/Gamma = %.2g at this field; the run ends at %g.", satValid, sv.saturation))
+		default:
+			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega <= 0.1 only up to saturation R/Gamma = %.2g at this field: most of the run is outside validity.", satValid))
+		}
+	}
+	return sv, nil
+}
+
+// gOmega returns transfer's g Omega (s^-1) of sp at field b (gauss) on
+// the given channel grid (which decides the lines transfer keeps).
+func gOmega(solve func(float64) (*levels.Transition, error), b, vd, span float64, channels int) (float64, error) {
+	tr, err := solve(b)
+	if err != nil {
+		return 0, err
+	}
+	p := transfer.Params{Species: tr.Species, Field: b, Doppler: vd, Span: span, Channels: channels}
+	p.Defaults()
+	m, err := transfer.NewModel(tr, p)
+	if err != nil {
+		return 0, err
+	}
+	return m.GOmega(), nil
+}
+
+// niceSeries returns the values 1, 2, 3, 5 times powers of ten from lo to
+// hi (at least one value, lo's).
+func niceSeries(lo, hi float64) []float64 {
+	var out []float64
+	for e := math.Floor(math.Log10(lo)); ; e++ {
+		for _, m := range []float64{1, 2, 3, 5} {
+			x := roundSig(m*math.Pow(10, e), 1)
+			if x >= lo*(1-1e-9) && (x <= hi || len(out) == 0) {
+				out = append(out, x)
+			}
+			if x > hi {
+				return out
+			}
+		}
+	}
+}
+
+// nearestNice returns the value of the 1-2-3-5 series nearest to x in log.
+func nearestNice(x float64) float64 {
+	best := 0.0
+	for _, y := range niceSeries(x/10, x*10) {
+		if best == 0 || math.Abs(math.Log(y/x)) < math.Abs(math.Log(best/x)) {
+			best = y
+		}
+	}
+	return best
+}
+
+// niceBelow returns the largest value of the 1-2-3-5 series <= x.
+func niceBelow(x float64) float64 {
+	s := niceSeries(x/10, x)
+	return s[len(s)-1]
+}
+
+func roundSig(x float64, digits int) float64 {
+	if x == 0 {
+		return 0
+	}
+	p := math.Pow(10, float64(digits)-math.Ceil(math.Log10(math.Abs(x))))
+	return math.Round(x*p) / p
+}
+
+// fieldText writes a field in G, mG or uG, whichever keeps it >= 1.
+func fieldText(b float64) string {
+	u := "uG"
+	for _, c := range []string{"G", "mG"} {
+		if units.In(b, units.Field, c) >= 1-1e-9 {
+			u = c
+			break
+		}
+	}
+	return strconv.FormatFloat(roundSig(units.In(b, units.Field, u), 3), 'g', -1, 64) + " " + u
 }

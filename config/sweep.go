@@ -56,7 +56,10 @@ func (ps *parser) number(s *spec, key string, v any) (float64, *Error) {
 	case tQuantity:
 		y, err := units.Value(v, s.kind, s.plain)
 		if err != nil {
-			return 0, ps.err(key, s.allowed(), "%v", err)
+			// The allowed clause of the error names the units and the
+			// range; the units' own list would repeat it.
+			msg := strings.TrimSuffix(err.Error(), " (allowed: "+units.Allowed(s.kind)+")")
+			return 0, ps.err(key, s.allowed(), "%s", msg)
 		}
 		x = y
 	case tNumber:

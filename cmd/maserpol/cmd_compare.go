@@ -65,6 +65,9 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 			fmt.Fprintf(stderr, "maserpol: warning: %s at R/Gamma %.3g has R/(g Omega) = %.3g > 0.1: outside the populations-only regime\n", r.Model.Name, r.Best.Saturation, rg)
 		}
 	}
+	if n := atBound(rk); n > 0 {
+		fmt.Fprintf(stderr, "maserpol: warning: the best shift of %d of %d models sits at --max-shift %s: the optimum may lie beyond it; widen --max-shift or check the velocity frame\n", n, len(rk), *maxShift)
+	}
 	if *csvPath != "" {
 		if err := writeAtomically(*csvPath, rankingCSV(obs, rk)); err != nil {
 			return report(stderr, err)
@@ -79,6 +82,25 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", strings.Join(paths, ", "))
 	}
 	return exitOK
+}
+
+// atBound counts the models whose best shift is stopped by --max-shift.
+func atBound(rk []interpret.Ranked) int {
+	n := 0
+	for _, r := range rk {
+		if r.Best.ShiftAtBound {
+			n++
+		}
+	}
+	return n
+}
+
+// validText is the validity cell of a ranked row.
+func validText(r interpret.Ranked) string {
+	if rgAt(r) <= interpret.ValidLimit {
+		return "yes"
+	}
+	return "NO"
 }
 
 func rgAt(r interpret.Ranked) float64 {
@@ -117,19 +139,33 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 	}
 	fmt.Fprintf(w, "  free per model: velocity shift, scale (on I, also applied to Q, U, V), checkpoint; rank by chi2/(N - 3)\n\n")
 	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
-	hdr := "rank\tmodel\tparameters\tcheckpoint\tR/Gamma\tR/(g Omega)\tshift (km/s)\tscale (" + scaleUnit(obs) + ")"
+	hdr := "rank\tmodel\tparameters\tcheckpoint\tR/Gamma\tR/(g Omega)\tvalid\tshift (km/s)\tscale (" + scaleUnit(obs) + ")"
 	for k, s := range interpret.StokesNames {
 		if obs.Use[k] {
 			hdr += "\tchi2_" + s + "/N"
 		}
 	}
 	fmt.Fprintln(tw, hdr+"\treduced chi2")
+	shown, outside, bound, zero := 0, 0, 0, 0
 	for i, r := range rk {
 		if i >= top && i >= 10 {
 			fmt.Fprintf(tw, "...\t(%d more models; --csv for all)\n", len(rk)-i)
 			break
 		}
-		line := fmt.Sprintf("%d\t%s\t%s\t%d\t%s\t%s\t%.4f\t%s", i+1, r.Model.Name, paramText(r.Model), r.Best.Checkpoint, g3(r.Best.Saturation), g3(rgAt(r)), r.Best.Shift/1e3, g3(r.Best.Scale))
+		shown++
+		if rgAt(r) > interpret.ValidLimit {
+			outside++
+		}
+		shift := fmt.Sprintf("%.4f", r.Best.Shift/1e3)
+		switch {
+		case r.Best.Scale == 0:
+			shift = "-"
+			zero++
+		case r.Best.ShiftAtBound:
+			shift += " (bound)"
+			bound++
+		}
+		line := fmt.Sprintf("%d\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s", i+1, r.Model.Name, paramText(r.Model), r.Best.Checkpoint, g3(r.Best.Saturation), g3(rgAt(r)), validText(r), shift, g3(r.Best.Scale))
 		for k := range interpret.StokesNames {
 			if obs.Use[k] {
 				line += "\t" + g3(r.Best.RedChi2Of(k))
@@ -138,14 +174,20 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 		fmt.Fprintln(tw, line+"\t"+g3(r.Best.RedChi2))
 	}
 	tw.Flush()
-	fmt.Fprintf(w, "\nValidity: the populations-only model holds where R/(g Omega) <= 0.1; rows above are outside it.\n")
+	fmt.Fprintf(w, "\nValidity: the populations-only model holds where R/(g Omega) <= 0.1 (column valid); %d of %d ranked rows shown are outside it.\n", outside, shown)
+	if bound > 0 {
+		fmt.Fprintf(w, "Shift: in %d of the %d rows shown the best shift is at the --max-shift bound (marked): the optimum may lie beyond it.\n", bound, shown)
+	}
+	if zero > 0 {
+		fmt.Fprintf(w, "Scale: held >= 0 (a maser line is in emission); in %d of the %d rows shown it is 0: no emission of the model fits within the allowed shifts (shift undetermined, \"-\").\n", zero, shown)
+	}
 	fmt.Fprintf(w, "A good chi-square does not exclude other models outside the run's grid, nor mechanisms the model lacks (maserpol diagnose).\n")
 }
 
 func rankingCSV(obs *interpret.Observed, rk []interpret.Ranked) []byte {
 	var b csvBuffer
-	b.comment("maserpol compare: %s; shift in km/s added to model velocities; scale in %s; chi2_X/N per Stokes; red_chi2 = total chi2/(N*n_stokes - 3); valid: R/(g Omega) <= 0.1", obs.File, scaleUnit(obs))
-	cols := []string{"rank", "model", "parameters", "checkpoint", "saturation", "r_over_gomega", "valid", "shift_kms", "scale"}
+	b.comment("maserpol compare: %s; shift in km/s added to model velocities; scale in %s; chi2_X/N per Stokes; red_chi2 = total chi2/(N*n_stokes - 3); scale >= 0; shift_at_bound: the best shift is at --max-shift; valid: R/(g Omega) <= 0.1", obs.File, scaleUnit(obs))
+	cols := []string{"rank", "model", "parameters", "checkpoint", "saturation", "r_over_gomega", "valid", "shift_kms", "shift_at_bound", "scale"}
 	for k, s := range interpret.StokesNames {
 		if obs.Use[k] {
 			cols = append(cols, "chi2_"+s+"_per_N")
@@ -153,7 +195,7 @@ func rankingCSV(obs *interpret.Observed, rk []interpret.Ranked) []byte {
 	}
 	b.row(append(cols, "red_chi2")...)
 	for i, r := range rk {
-		cells := []string{strconv.Itoa(i + 1), r.Model.Name, paramText(r.Model), strconv.Itoa(r.Best.Checkpoint), fcsv(r.Best.Saturation), fcsv(rgAt(r)), strconv.FormatBool(rgAt(r) <= interpret.ValidLimit), fcsv(r.Best.Shift / 1e3), fcsv(r.Best.Scale)}
+		cells := []string{strconv.Itoa(i + 1), r.Model.Name, paramText(r.Model), strconv.Itoa(r.Best.Checkpoint), fcsv(r.Best.Saturation), fcsv(rgAt(r)), strconv.FormatBool(rgAt(r) <= interpret.ValidLimit), fcsv(r.Best.Shift / 1e3), strconv.FormatBool(r.Best.ShiftAtBound), fcsv(r.Best.Scale)}
 		for k := range interpret.StokesNames {
 			if obs.Use[k] {
 				cells = append(cells, fcsv(r.Best.RedChi2Of(k)))

@@ -70,6 +70,10 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		if err != nil {
 			return 0, false, usagef("--%s: %v", name, err)
 		}
+		if x > 1 && x <= 100 && !strings.Contains(s, "%") {
+			// A percentage written without its sign.
+			return 0, false, usagef("--%s %s: a fraction is 0..1 (allowed: a fraction 0..1, or a percentage with %%); did you mean \"%s %%\"?", name, s, strings.TrimSpace(s))
+		}
 		return x, true, nil
 	}
 	var m interpret.Measurement
@@ -235,8 +239,11 @@ func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
 	fmt.Fprintln(tw, "mechanism\tparameter\tconsistent within errors\tm_l reached (branch)\tR/(g Omega)\tvalidity\treproduces")
 	for _, v := range d.Verdicts {
 		valid := "valid (R/gOmega <= 0.1)"
-		if !v.Valid {
-			valid = "OUTSIDE validity"
+		switch {
+		case v.PartlyValid():
+			valid = "partly outside validity (R/gOmega up to " + g3(v.RGOmega.Hi) + ")"
+		case !v.Valid:
+			valid = "OUTSIDE validity (R/gOmega > 0.1)"
 		}
 		rep := "no"
 		if v.Reproduces {
@@ -266,10 +273,16 @@ func diagnosisCSV(d *interpret.Diagnosis, name string) []byte {
 	m := d.Measurement
 	b.comment("maserpol diagnose: %s; m_l = %g +/- %g (%s branch), R/Gamma %g..%g, n_sigma %g; field cases B = %g G, weak-field cases B = %g G", name, m.Ml, m.MlErr, m.Branch, m.SatLo, m.SatHi, m.NSigma, d.Field, d.WeakField)
 	b.comment("fractions dimensionless; pl = m_l projected on the measured branch (negative: orthogonal); valid: R/(g Omega) <= 0.1 (populations-only model)")
-	b.row("mechanism", "parameter", "consistent", "n_consistent", "n_models", "pl_min", "pl_max", "r_over_gomega_min", "r_over_gomega_max", "valid", "reproduces", "note")
+	b.comment("valid: R/(g Omega) <= 0.1 over the whole range; valid_up_to: the saturation R/Gamma up to which it holds when not valid (nan: nowhere in the range); consistent_ml, n_consistent_ml, pv_constrained: the answer from m_l alone and whether P_V changed it (with --pv)")
+	b.row("mechanism", "parameter", "consistent", "n_consistent", "n_models", "pl_min", "pl_max", "r_over_gomega_min", "r_over_gomega_max", "valid", "valid_up_to", "reproduces", "consistent_ml", "n_consistent_ml", "pv_constrained", "note")
 	for _, v := range d.Verdicts {
+		ml, nml := v.Consistent, v.NConsistent
+		if m.HasPV {
+			ml, nml = v.ConsistentMl, v.NConsistentMl
+		}
 		b.row(v.Mechanism.String(), v.Parameter, v.Consistent, strconv.Itoa(v.NConsistent), strconv.Itoa(v.NModels),
-			fcsv(v.Reach.Lo), fcsv(v.Reach.Hi), fcsv(v.RGOmega.Lo), fcsv(v.RGOmega.Hi), strconv.FormatBool(v.Valid), strconv.FormatBool(v.Reproduces), v.Note)
+			fcsv(v.Reach.Lo), fcsv(v.Reach.Hi), fcsv(v.RGOmega.Lo), fcsv(v.RGOmega.Hi), strconv.FormatBool(v.Valid), fcsv(v.ValidUpTo), strconv.FormatBool(v.Reproduces),
+			ml, strconv.Itoa(nml), strconv.FormatBool(v.PVConstrained), v.Note)
 	}
 	return b.Bytes()
 }

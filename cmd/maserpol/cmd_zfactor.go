@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -77,11 +78,17 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	if err != nil {
 		return report(stderr, err)
 	}
+	if allPerpendicular(th) {
+		return report(stderr, usagef("--theta %q: %v", *thetas, interpret.ErrNoAngles))
+	}
 	spec.Thetas = th
 	if spec.Component, err = pickComponent(sp, *comp); err != nil {
 		return report(stderr, err)
 	}
 	f, err := interpret.ZeemanFactors(ctx, spec, *workers, transfer.Run)
+	if errors.Is(err, interpret.ErrNoAngles) {
+		return report(stderr, usagef("--theta %q: %v", *thetas, err))
+	}
 	if err != nil {
 		return report(stderr, err)
 	}
@@ -96,6 +103,17 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
 	}
 	return exitOK
+}
+
+// allPerpendicular reports whether every angle is 90 deg (cos theta = 0 to
+// the precision ZeemanFactors uses).
+func allPerpendicular(th []float64) bool {
+	for _, x := range th {
+		if math.Abs(math.Cos(x)) >= 1e-6 {
+			return false
+		}
+	}
+	return true
 }
 
 func parseAngleList(s string) ([]float64, error) {
@@ -155,26 +173,45 @@ func printFactors(w io.Writer, f *interpret.Factors) {
 	fmt.Fprintf(w, "Zeeman factor for %s, %s\n", f.Species.Name, compName(f))
 	fmt.Fprintf(w, "  model field B0 = %s G (and 2 B0 for the linearity check); fit V = A dI/dv + C I over %.4g..%.4g km/s\n", g3(f.B0), f.Window[0]/1e3, f.Window[1]/1e3)
 	fmt.Fprintf(w, "  convention: V = cos(theta) dv_Z dI/dv, dv_Z = sigma+ shift against pi (half the sigma+/sigma- separation), IAU V, radio velocity\n")
-	fmt.Fprintf(w, "  use: B cos(theta) = A_observed / factor; single-component linear-Zeeman factor = %s m/s per G\n\n", g3(f.Linear))
+	fmt.Fprintf(w, "  use: B cos(theta) = A_observed / factor; single-component linear-Zeeman factor = %s m/s per G\n", g3(f.Linear))
+	fmt.Fprintf(w, "  validity: R/(g Omega) is that of the model field B0 and scales as 1/B; a row holds for your field when\n")
+	fmt.Fprintf(w, "    |B| >= the \"valid for |B| >=\" value (R/(g Omega) <= 0.1) and |B| <= %s G (splitting < 0.1 Doppler widths, linear Zeeman shifts)\n\n", g3(f.BMax))
 	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "theta (deg)\tR/Gamma\tR/(g Omega)\tfactor (m/s per G)\tfactor/linear\tP_V per B cos(theta) (1/G)\tlinearity\tfit residual\tvalidity")
+	fmt.Fprintln(tw, "theta (deg)\tR/Gamma\tR/(g Omega) at B0\tfactor (m/s per G)\tfactor/linear\tP_V per B cos(theta) (1/G)\tlinearity\tfit residual\tvalid for |B| >=")
+	poor := 0
 	for _, r := range f.Rows {
-		valid := "valid"
-		if r.RoverGOmega > interpret.ValidLimit {
-			valid = "OUTSIDE (R/gOmega > 0.1)"
+		valid := gaussText(r.BValidMin)
+		if r.BValidMin > f.BMax {
+			valid += " (above the linear range: none)"
+		}
+		if !r.GoodFit {
+			valid = "POOR FIT: residual > " + pct(interpret.MaxResidual) + ", V not dI/dv-shaped"
+			poor++
 		}
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\n", g3(r.Theta*180/math.Pi), g3(r.Saturation), g3(r.RoverGOmega), g3(r.Factor), strconv.FormatFloat(r.Ratio, 'f', 3, 64), g3(r.PVPerG), pct(r.Linearity), pct(r.Residual), valid)
 	}
 	tw.Flush()
+	if poor > 0 {
+		fmt.Fprintf(w, "\n%d of %d rows are poor fits (V departs from A dI/dv + C I by more than %s rms): their factor does not convert V into B cos(theta).\n", poor, len(f.Rows), pct(interpret.MaxResidual))
+	}
+}
+
+// gaussText writes a field (gauss) in G or mG with its unit.
+func gaussText(b float64) string {
+	if math.Abs(b) < 1 {
+		return g3(b*1e3) + " mG"
+	}
+	return g3(b) + " G"
 }
 
 func factorsCSV(f *interpret.Factors) []byte {
 	var b csvBuffer
 	b.comment("maserpol zeeman-factor: %s, %s; B0 = %g G; fit window %g..%g km/s", f.Species.Name, compName(f), f.B0, f.Window[0]/1e3, f.Window[1]/1e3)
-	b.comment("factor = A/(B0 cos theta) from V = A dI/dv + C I; B cos(theta) = A_observed/factor; linear = single-component linear-Zeeman value; valid: R/(g Omega) <= 0.1")
-	b.row("theta_deg", "saturation", "r_over_gomega", "valid", "A_kms", "C", "factor_ms_per_G", "linear_ms_per_G", "ratio", "pv_per_G", "linearity", "residual")
+	b.comment("factor = A/(B0 cos theta) from V = A dI/dv + C I; B cos(theta) = A_observed/factor; linear = single-component linear-Zeeman value")
+	b.comment("r_over_gomega at B0, scaling as 1/B: a row holds for b_valid_min_G <= |B| <= %g G; good_fit: residual <= %g; valid: good_fit and r_over_gomega <= 0.1 at B0", f.BMax, interpret.MaxResidual)
+	b.row("theta_deg", "saturation", "r_over_gomega", "valid", "good_fit", "b_valid_min_G", "A_kms", "C", "factor_ms_per_G", "linear_ms_per_G", "ratio", "pv_per_G", "linearity", "residual")
 	for _, r := range f.Rows {
-		b.row(fcsv(r.Theta*180/math.Pi), fcsv(r.Saturation), fcsv(r.RoverGOmega), strconv.FormatBool(r.RoverGOmega <= interpret.ValidLimit),
+		b.row(fcsv(r.Theta*180/math.Pi), fcsv(r.Saturation), fcsv(r.RoverGOmega), strconv.FormatBool(r.Valid), strconv.FormatBool(r.GoodFit), fcsv(r.BValidMin),
 			fcsv(r.A/1e3), fcsv(r.C), fcsv(r.Factor), fcsv(r.Linear), fcsv(r.Ratio), fcsv(r.PVPerG), fcsv(r.Linearity), fcsv(r.Residual))
 	}
 	return b.Bytes()

@@ -188,7 +188,7 @@ func Allowed(k Kind) string {
 func Parse(s string, k Kind) (float64, error) {
 	t := strings.TrimSpace(s)
 	if t == "" {
-		return 0, fmt.Errorf("empty %s; write a number and a unit (%s)", k, Allowed(k))
+		return 0, fmt.Errorf("empty %s; write a number and a unit (allowed: %s)", k, Allowed(k))
 	}
 	i := numberEnd(t)
 	if i == 0 {
@@ -202,12 +202,12 @@ func Parse(s string, k Kind) (float64, error) {
 	u, ok := lookup(name, k)
 	if !ok {
 		if name == "" {
-			return 0, fmt.Errorf("%q has no unit; a %s needs one of: %s", s, k, Allowed(k))
+			return 0, fmt.Errorf("%q has no unit; give a unit of %s (allowed: %s)", s, k, Allowed(k))
 		}
 		if other, ok := anyKind(name); ok {
-			return 0, fmt.Errorf("%q: %q is a unit of %s, but a %s is needed (%s)", s, name, other, k, Allowed(k))
+			return 0, fmt.Errorf("%q: %q is a unit of %s, not of %s (allowed: %s)", s, name, other, k, Allowed(k))
 		}
-		return 0, fmt.Errorf("%q: unknown unit %q for a %s (allowed: %s)", s, name, k, Allowed(k))
+		return 0, fmt.Errorf("%q: unknown unit %q for %s (allowed: %s)", s, name, k, Allowed(k))
 	}
 	v := x * u.Scale
 	if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -288,7 +288,7 @@ func Value(v any, k Kind, plainUnit string) (float64, error) {
 	case float64:
 		return plain(x, k, plainUnit)
 	default:
-		return 0, fmt.Errorf("expected a %s as a string with a unit (%s), got %T", k, Allowed(k), v)
+		return 0, fmt.Errorf("expected %s as a string with a unit, got %T (allowed: %s)", k, v, Allowed(k))
 	}
 }
 
@@ -297,7 +297,7 @@ func plain(x float64, k Kind, unit string) (float64, error) {
 		return 0, fmt.Errorf("%v is not a finite number", x)
 	}
 	if unit == "" && k != Dimensionless {
-		return 0, fmt.Errorf("%v has no unit; write it as a string such as \"%v %s\" (allowed units: %s)", x, x, firstUnit(k), Allowed(k))
+		return 0, fmt.Errorf("%v has no unit; write it as a string such as \"%v %s\" (allowed: %s)", x, x, firstUnit(k), Allowed(k))
 	}
 	u, ok := lookup(unit, k)
 	if !ok {

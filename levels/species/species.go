@@ -507,7 +507,9 @@ func (p *parser) quantity(t map[string]any, key string, k units.Kind, plain stri
 	}
 	x, err := units.Value(v, k, plain)
 	if err != nil {
-		return 0, p.err(full, unitHint(k, plain), "%v", err)
+		// The unit list goes into Allowed once, not twice.
+		msg := strings.TrimSuffix(err.Error(), " (allowed: "+units.Allowed(k)+")")
+		return 0, p.err(full, unitHint(k, plain), "%s", msg)
 	}
 	return x, nil
 }

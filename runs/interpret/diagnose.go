@@ -222,10 +222,27 @@ type Verdict struct {
 	Reach Interval
 	// RGOmega is the range of R/(g Omega) over the measured saturation
 	// range, for the consistent models (all models when none is).
-	RGOmega    Interval
-	Valid      bool // RGOmega.Hi <= ValidLimit
+	RGOmega Interval
+	Valid   bool // RGOmega.Hi <= ValidLimit
+	// ValidUpTo is, when not Valid, the saturation R/Gamma up to which
+	// every model behind RGOmega keeps R/(g Omega) <= ValidLimit (NaN when
+	// none does in the measured range): the verdict is then partly
+	// outside validity (RGOmega.Lo <= ValidLimit) or wholly.
+	ValidUpTo  float64
 	Reproduces bool
 	Note       string
+	// With a measured P_V (Measurement.HasPV): ConsistentMl and
+	// NConsistentMl are Consistent and NConsistent from m_l alone, and
+	// PVConstrained tells whether adding P_V changed the answer.
+	ConsistentMl  string
+	NConsistentMl int
+	PVConstrained bool
+}
+
+// PartlyValid reports whether the verdict's R/(g Omega) range straddles
+// ValidLimit: valid at the low-saturation end, outside it at the high one.
+func (v Verdict) PartlyValid() bool {
+	return !v.Valid && !v.RGOmega.Empty() && v.RGOmega.Lo <= ValidLimit
 }
 
 // CaseResult is the outcome of one case.
@@ -236,8 +253,10 @@ type CaseResult struct {
 	PV         Interval // P_V over the saturation range
 	RGOmega    Interval
 	Covered    bool // the checkpoints span the whole saturation range
-	Consistent bool
-	Err        error
+	Consistent bool // reproduces the measurement (m_l, and P_V when given)
+	// ConsistentMl: reproduces m_l alone (equal to Consistent without P_V).
+	ConsistentMl bool
+	Err          error
 }
 
 // Envelope is the band of projected polarization one mechanism spans
@@ -310,10 +329,10 @@ func Evaluate(m Measurement, results []CaseResult, field, weakField float64) (*D
 		}
 		ran++
 		r.Reach, r.RGOmega, r.PV, r.Covered = r.Curve.reach(m.Branch, m.SatLo, m.SatHi)
+		r.ConsistentMl = r.Reach.Lo <= hi && r.Reach.Hi >= lo
+		r.Consistent = r.ConsistentMl
 		if m.HasPV {
 			r.Consistent = r.Curve.jointlyConsistent(m)
-		} else {
-			r.Consistent = r.Reach.Lo <= hi && r.Reach.Hi >= lo
 		}
 		if !r.Covered {
 			a, b := r.Curve.Span()
@@ -327,7 +346,15 @@ func Evaluate(m Measurement, results []CaseResult, field, weakField float64) (*D
 		return nil, ErrNoModels
 	}
 	for mech := Mechanism(0); mech < numMechanisms; mech++ {
-		d.Verdicts = append(d.Verdicts, verdictOf(mech, d.Cases, m))
+		v := verdictOf(mech, d.Cases, m)
+		if m.HasPV {
+			ml := m
+			ml.HasPV = false
+			w := verdictOf(mech, d.Cases, ml)
+			v.ConsistentMl, v.NConsistentMl = w.Consistent, w.NConsistent
+			v.PVConstrained = w.Consistent != v.Consistent || w.NConsistent != v.NConsistent
+		}
+		d.Verdicts = append(d.Verdicts, v)
 	}
 	d.Envelopes = envelopes(d.Cases, m.Branch)
 	d.conclude()
@@ -354,8 +381,11 @@ func (c Curve) jointlyConsistent(m Measurement) bool {
 	return false
 }
 
+// verdictOf sums up one mechanism's cases; without m.HasPV it judges by
+// m_l alone (CaseResult.ConsistentMl), so that the P_V-free answer can be
+// told from the joint one.
 func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
-	v := Verdict{Mechanism: mech, Reach: emptyInterval(), RGOmega: emptyInterval()}
+	v := Verdict{Mechanism: mech, Reach: emptyInterval(), RGOmega: emptyInterval(), ValidUpTo: math.NaN()}
 	switch mech {
 	case FieldIsotropic:
 		v.Parameter = "theta (deg)"
@@ -367,6 +397,7 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 		v.Parameter = "alignment (dimensionless), theta 90 deg"
 	}
 	all := emptyInterval()
+	allUpTo, consUpTo := math.Inf(1), math.Inf(1)
 	byKey := map[float64][]float64{} // consistent thetas per alignment or seed fraction
 	for _, r := range rs {
 		if r.Case.Mechanism != mech || r.Err != nil {
@@ -375,11 +406,18 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 		v.NModels++
 		v.Reach.union(r.Reach)
 		all.union(r.RGOmega)
-		if !r.Consistent {
+		upTo := r.Curve.validUpTo()
+		allUpTo = math.Min(allUpTo, upTo)
+		consistent := r.ConsistentMl
+		if m.HasPV {
+			consistent = r.Consistent
+		}
+		if !consistent {
 			continue
 		}
 		v.NConsistent++
 		v.RGOmega.union(r.RGOmega)
+		consUpTo = math.Min(consUpTo, upTo)
 		th := r.Case.Theta * 180 / math.Pi
 		switch mech {
 		case AnisotropicPump, WeakField:
@@ -390,6 +428,7 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 	}
 	if v.NConsistent == 0 {
 		v.RGOmega = all
+		consUpTo = allUpTo
 	}
 	var thIv []Interval
 	if mech == FieldIsotropic {
@@ -406,6 +445,7 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 			// Only angles between grid points reproduce it: validity from the
 			// bracketing grid points.
 			v.RGOmega = all
+			consUpTo = allUpTo
 		}
 	case v.NConsistent == 0:
 		v.Consistent = "none"
@@ -422,9 +462,15 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 		}
 		v.Consistent = strings.Join(parts, "; ")
 	}
+	v.Valid = !v.RGOmega.Empty() && v.RGOmega.Hi <= ValidLimit
+	if !v.Valid && consUpTo >= m.SatLo && !math.IsInf(consUpTo, 1) {
+		v.ValidUpTo = math.Min(consUpTo, m.SatHi)
+	}
 	switch {
 	case mech == WeakField:
 		v.Note = "populations-only values, indicative only: coherences neglected; at B -> 0 a single ray under isotropic pumping is unpolarized by symmetry"
+	case v.Reproduces && v.PartlyValid():
+		v.Note = fmt.Sprintf("reproduces, but partly outside the populations-only regime: R/(g Omega) up to %.3g, valid for R/Gamma <= %.3g only", v.RGOmega.Hi, v.ValidUpTo)
 	case v.Reproduces && !v.Valid:
 		v.Note = "reproduces, but outside the populations-only regime"
 	case !v.Reproduces && !v.Reach.Empty() && v.Reach.Hi < m.Ml-m.NSigma*m.MlErr:
@@ -436,10 +482,14 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 }
 
 // thetaIntervals returns the field angles (deg) under isotropic pumping
-// that reproduce the measurement, using that q_b is continuous in theta:
-// between neighbouring grid angles q_b is interpolated linearly at each
-// saturation of the measured range (the checkpoints and 64 log steps), and
-// the angles where it lies within NSigma errors are collected and merged.
+// that reproduce the measurement, using that q_b (and P_V) are continuous
+// in theta: between neighbouring grid angles both are interpolated
+// linearly at each saturation of the measured range (the checkpoints and
+// 64 log steps), and the angles where m_l (and, with HasPV, P_V at the
+// same angle and saturation) lie within NSigma errors are collected and
+// merged. Gaps narrower than a tenth of the grid spacing are closed: they
+// come from sampling the saturation, and linear interpolation between grid
+// angles does not resolve angles that finely.
 func thetaIntervals(rs []CaseResult, m Measurement) []Interval {
 	type node struct {
 		th float64
@@ -466,44 +516,59 @@ func thetaIntervals(rs []CaseResult, m Measurement) []Interval {
 		}
 	}
 	lo, hi := m.Ml-m.NSigma*m.MlErr, m.Ml+m.NSigma*m.MlErr
-	ok := func(s Sample) bool {
-		return !m.HasPV || math.Abs(s.PV-m.PV) <= m.NSigma*m.PVErr
-	}
+	pvLo, pvHi := m.PV-m.NSigma*m.PVErr, m.PV+m.NSigma*m.PVErr
 	var ivs []Interval
 	for _, sat := range sats {
 		for i := range ns {
 			a, _ := ns[i].c.At(sat)
-			pa := a.Project(m.Branch)
-			if pa >= lo && pa <= hi && ok(a) {
-				ivs = append(ivs, Interval{ns[i].th, ns[i].th})
-			}
 			if i+1 == len(ns) {
-				continue
-			}
-			b, _ := ns[i+1].c.At(sat)
-			if m.HasPV && !ok(a) && !ok(b) {
-				continue
-			}
-			pb := b.Project(m.Branch)
-			if pb == pa {
-				if pa >= lo && pa <= hi {
-					ivs = append(ivs, Interval{ns[i].th, ns[i+1].th})
+				// The last node (or the only one) on its own.
+				if within(a.Project(m.Branch), lo, hi) && (!m.HasPV || within(a.PV, pvLo, pvHi)) {
+					ivs = append(ivs, Interval{ns[i].th, ns[i].th})
 				}
 				continue
 			}
-			// t where pa + t (pb - pa) enters and leaves [lo, hi].
-			t1, t2 := (lo-pa)/(pb-pa), (hi-pa)/(pb-pa)
-			if t1 > t2 {
-				t1, t2 = t2, t1
+			b, _ := ns[i+1].c.At(sat)
+			t1, t2 := linearWithin(a.Project(m.Branch), b.Project(m.Branch), lo, hi)
+			if m.HasPV {
+				u1, u2 := linearWithin(a.PV, b.PV, pvLo, pvHi)
+				t1, t2 = math.Max(t1, u1), math.Min(t2, u2)
 			}
-			t1, t2 = math.Max(t1, 0), math.Min(t2, 1)
 			if t1 <= t2 {
 				d := ns[i+1].th - ns[i].th
 				ivs = append(ivs, Interval{ns[i].th + t1*d, ns[i].th + t2*d})
 			}
 		}
 	}
-	return mergeIntervals(ivs, 0.05)
+	spacing := math.Inf(1)
+	for i := 1; i < len(ns); i++ {
+		if d := ns[i].th - ns[i-1].th; d > 0 {
+			spacing = math.Min(spacing, d)
+		}
+	}
+	gap := 0.1 // the printed precision, deg
+	if !math.IsInf(spacing, 1) {
+		gap = math.Max(gap, spacing/10)
+	}
+	return mergeIntervals(ivs, gap)
+}
+
+func within(x, lo, hi float64) bool { return x >= lo && x <= hi }
+
+// linearWithin returns the range [t1, t2] of t in [0, 1] where
+// a + t (b - a) lies in [lo, hi]; t1 > t2 when there is none.
+func linearWithin(a, b, lo, hi float64) (t1, t2 float64) {
+	if a == b {
+		if within(a, lo, hi) {
+			return 0, 1
+		}
+		return 1, 0
+	}
+	t1, t2 = (lo-a)/(b-a), (hi-a)/(b-a)
+	if t1 > t2 {
+		t1, t2 = t2, t1
+	}
+	return math.Max(t1, 0), math.Min(t2, 1)
 }
 
 // mergeIntervals sorts and joins intervals that overlap or lie within gap.
@@ -651,6 +716,9 @@ func (d *Diagnosis) conclude() {
 			d.Statements = append(d.Statements, fmt.Sprintf("The field alone does not reproduce m_l = %s +/- %s %s at %s, although it can reach %s there.", pct(m.Ml), pct(m.MlErr), branch, satRange, pct(d.FieldMax)))
 		}
 	}
+	if m.HasPV {
+		d.Statements = append(d.Statements, pvStatement(m, d.Verdicts))
+	}
 	var names []string
 	for i := range d.Verdicts {
 		v := &d.Verdicts[i]
@@ -670,9 +738,12 @@ func (d *Diagnosis) conclude() {
 		d.Statements = append(d.Statements, "Nothing on the grid reproduces it: widen the grid, check the saturation estimate, or consider effects outside the model (below).")
 	}
 	if field != nil && !field.RGOmega.Empty() {
-		if field.RGOmega.Hi > ValidLimit {
+		switch {
+		case field.PartlyValid():
+			d.Warnings = append(d.Warnings, fmt.Sprintf("at B = %.4g G the populations-only model is partly outside its validity over %s: R/(g Omega) = %.3g..%.3g, above %g for R/Gamma > %.3g", d.Field, satRange, field.RGOmega.Lo, field.RGOmega.Hi, ValidLimit, field.ValidUpTo))
+		case field.RGOmega.Hi > ValidLimit:
 			d.Warnings = append(d.Warnings, fmt.Sprintf("at B = %.4g G the populations-only model is OUTSIDE its validity over %s: R/(g Omega) up to %.3g > %g", d.Field, satRange, field.RGOmega.Hi, ValidLimit))
-		} else {
+		default:
 			d.Statements = append(d.Statements, fmt.Sprintf("Validity: at B = %.4g G, R/(g Omega) = %.3g..%.3g over %s (populations-only model valid, limit %g).", d.Field, field.RGOmega.Lo, field.RGOmega.Hi, satRange, ValidLimit))
 		}
 	}
@@ -684,4 +755,59 @@ func (d *Diagnosis) conclude() {
 		"velocity gradients, 3-D geometry and beaming other than a single 1-D column; hyperfine-selective pumping",
 		"saturation outside the stated range: the verdicts hold only for the given T_b dOmega or R/Gamma",
 	}
+}
+
+// pvStatement says whether the measured P_V constrained the answer beyond
+// m_l: for the field, by the angles; for the other mechanisms, by the
+// number of consistent models.
+func pvStatement(m Measurement, vs []Verdict) string {
+	pct := func(x float64) string { return strconv.FormatFloat(100*x, 'f', 1, 64) + " %" }
+	head := fmt.Sprintf("P_V = %s +/- %s", pct(m.PV), pct(m.PVErr))
+	var parts []string
+	removed, kept := 0, 0
+	for _, v := range vs {
+		if v.Mechanism == FieldIsotropic {
+			switch {
+			case !v.PVConstrained:
+				parts = append(parts, fmt.Sprintf("it did not narrow the field angles (%s from m_l alone)", v.Consistent))
+			case !v.Reproduces:
+				parts = append(parts, fmt.Sprintf("it excludes every field angle that m_l alone allows (%s)", v.ConsistentMl))
+			default:
+				parts = append(parts, fmt.Sprintf("it narrowed the field angles from %s (m_l alone) to %s", v.ConsistentMl, v.Consistent))
+			}
+			continue
+		}
+		if v.Mechanism == WeakField {
+			continue // P_V at a different (weak) field: not the measured one
+		}
+		removed += v.NConsistentMl - v.NConsistent
+		kept += v.NConsistent
+	}
+	if removed > 0 {
+		parts = append(parts, fmt.Sprintf("it rules out %d of the %d non-field models that m_l alone allows", removed, removed+kept))
+	} else if kept > 0 {
+		parts = append(parts, fmt.Sprintf("it rules out none of the %d non-field models that m_l alone allows", kept))
+	}
+	if len(parts) == 0 {
+		return head + ": nothing reproduces m_l, so P_V did not constrain the answer."
+	}
+	return head + " (compared at B, the field of the field cases): " + strings.Join(parts, "; ") + "."
+}
+
+// validUpTo returns the saturation at which the curve's R/(g Omega) first
+// exceeds ValidLimit, interpolated in log-log between checkpoints (R/(g
+// Omega) grows as the saturation); +Inf when it never does.
+func (c Curve) validUpTo() float64 {
+	for j, s := range c {
+		if !(s.RoverGOmega > ValidLimit) {
+			continue
+		}
+		if j == 0 || !(c[j-1].RoverGOmega > 0) {
+			return s.Saturation * ValidLimit / s.RoverGOmega
+		}
+		a := c[j-1]
+		t := math.Log(ValidLimit/a.RoverGOmega) / math.Log(s.RoverGOmega/a.RoverGOmega)
+		return a.Saturation * math.Pow(s.Saturation/a.Saturation, t)
+	}
+	return math.Inf(1)
 }

@@ -243,3 +243,75 @@ func TestDiagnoseSiO(t *testing.T) {
 		t.Errorf("weak-field cases reported valid (R/gOmega %.3g..%.3g)", v.RGOmega.Lo, v.RGOmega.Hi)
 	}
 }
+
+// pvResults: isotropic field cases on a 5 deg grid with q_b = 0.5 at every
+// angle and saturation and P_V = 0.1 cos(theta), so that m_l = 0.5 allows
+// every angle and P_V alone selects them. Invented curves.
+func pvResults(rg float64) []CaseResult {
+	var rs []CaseResult
+	for i := 0; i <= 18; i++ {
+		th := float64(i) * 5 * math.Pi / 180
+		var c Curve
+		for k := -30; k <= 40; k++ {
+			s := math.Pow(10, float64(k)/10)
+			c = append(c, Sample{Saturation: s, Ml: 0.5, Qb: 0.5, PV: 0.1 * math.Cos(th), RoverGOmega: rg * s})
+		}
+		rs = append(rs, CaseResult{Case: Case{Mechanism: FieldIsotropic, Theta: th}, Curve: c})
+	}
+	return rs
+}
+
+// TestEvaluatePV: P_V = 0.05 +/- 0.005 (2 sigma: 0.04..0.06) with P_V =
+// 0.1 cos(theta) interpolated linearly between the 5 deg grid angles
+// selects 53.1..66.4 deg (0.06 is reached at 53.09 deg between 50 and 55
+// deg, 0.04 at 66.40 deg between 65 and 70 deg; /usr/bin/python3 by hand).
+// Without P_V, m_l allows every angle; the verdict says P_V narrowed it.
+func TestEvaluatePV(t *testing.T) {
+	m := Measurement{Ml: 0.5, MlErr: 0.02, PV: 0.05, PVErr: 0.005, HasPV: true, SatLo: 1, SatHi: 100}
+	d, err := Evaluate(m, pvResults(1e-5), 10, 1e-3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	v := verdict(t, d, FieldIsotropic)
+	if v.Consistent != "theta 53.1-66.4 deg" || v.ConsistentMl != "theta 0-90 deg" || !v.PVConstrained {
+		t.Errorf("consistent %q, from m_l alone %q, P_V constrained %v; want theta 53.1-66.4 deg, theta 0-90 deg, true", v.Consistent, v.ConsistentMl, v.PVConstrained)
+	}
+	if text := strings.Join(d.Statements, " "); !strings.Contains(text, "narrowed the field angles from theta 0-90 deg (m_l alone) to theta 53.1-66.4 deg") {
+		t.Errorf("statements do not say how P_V constrained the angles: %s", text)
+	}
+	// A P_V range holding every angle's P_V (0..0.1 within -0.05..0.15) does not constrain.
+	m.PV, m.PVErr = 0.05, 0.05
+	d, err = Evaluate(m, pvResults(1e-5), 10, 1e-3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v := verdict(t, d, FieldIsotropic); v.PVConstrained || !strings.Contains(strings.Join(d.Statements, " "), "did not narrow") {
+		t.Errorf("P_V constrained %v; statements %q", v.PVConstrained, d.Statements)
+	}
+}
+
+// R/(g Omega) = 1e-3 R/Gamma crosses 0.1 at R/Gamma = 100, inside the
+// measured 10..300: the verdict is partly outside validity, valid up to
+// 100 (the log-log interpolation is exact for this power law).
+func TestEvaluatePartlyValid(t *testing.T) {
+	d, err := Evaluate(Measurement{Ml: 0.5, MlErr: 0.02, SatLo: 10, SatHi: 300}, pvResults(1e-3), 10, 1e-3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	v := verdict(t, d, FieldIsotropic)
+	if v.Valid || !v.PartlyValid() || math.Abs(v.ValidUpTo/100-1) > 1e-9 {
+		t.Errorf("valid %v, partly %v, valid up to %g; want false, true, 100", v.Valid, v.PartlyValid(), v.ValidUpTo)
+	}
+	if w := strings.Join(d.Warnings, " "); !strings.Contains(w, "partly outside its validity") || strings.Contains(w, "OUTSIDE") {
+		t.Errorf("warnings %q", d.Warnings)
+	}
+}
+
+// Intervals that touch to within the merge gap print as one range, never
+// as "6.9-30, 30-49.6".
+func TestMergeTouchingIntervals(t *testing.T) {
+	got := formatIntervals(mergeIntervals([]Interval{{30.04, 49.6}, {6.9, 29.96}, {70, 80}}, 0.5))
+	if got != "6.9-49.6, 70-80" {
+		t.Errorf("got %q, want \"6.9-49.6, 70-80\"", got)
+	}
+}

@@ -22,11 +22,18 @@ type Fit struct {
 	Saturation float64
 	Shift      float64 // m/s added to the model velocities
 	// Scale multiplies the model (K) to match the observation: in the
-	// observation's unit per K (dimensionless when both are K).
+	// observation's unit per K (dimensionless when both are K). It is
+	// constrained to Scale >= 0: a maser is in emission, and a negative
+	// scale would fit an absorption or baseline dip with an inverted model.
+	// At Scale = 0 no emission of the model fits within the allowed shifts
+	// and Shift is undetermined.
 	Scale float64
-	Chi2  [4]float64 // per Stokes parameter (0 for unused ones)
-	N     int        // channels
-	NUsed int        // Stokes parameters used
+	// ShiftAtBound is true when the best shift lies within half a channel
+	// of FitOptions.MaxShift: the optimum may lie beyond the bound.
+	ShiftAtBound bool
+	Chi2         [4]float64 // per Stokes parameter (0 for unused ones)
+	N            int        // channels
+	NUsed        int        // Stokes parameters used
 	// RedChi2 is the total reduced chi-square chi2 / (N*NUsed - 3), with
 	// shift, scale and checkpoint as the free parameters.
 	RedChi2 float64
@@ -52,6 +59,7 @@ type Fitter struct {
 	w    [4][]float64 // 1/sigma^2
 	m    [4][]float64 // model on the observed grid
 	step float64      // coarse scan step, m/s
+	dv   float64      // observed channel width, m/s
 	// window is the half-width of the coarse scan about the peak-aligning
 	// shift: three observed half-power widths (at least 8 channels).
 	window float64
@@ -76,6 +84,7 @@ func NewFitter(obs *Observed, opt FitOptions) *Fitter {
 		f.opt.MaxShift = math.Inf(1)
 	}
 	dv := span / float64(n-1)
+	f.dv = dv
 	peak := 0.0
 	for _, x := range obs.Stokes[0] {
 		peak = math.Max(peak, x)
@@ -122,14 +131,16 @@ func (f *Fitter) eval(ms *ModelSpectrum, shift float64) (tot float64, chi [4]flo
 			sample(f.m[k], ms.Velocity, ms.Stokes[k], o.Velocity, shift)
 		}
 	}
-	// Scale: weighted least squares on I.
+	// Scale: weighted least squares on I under scale >= 0. chi2 is a
+	// parabola in the scale, so the constrained minimum is the
+	// unconstrained one clamped at 0 (non-negative least squares in 1-D).
 	var sxy, sxx float64
 	for i, w := range f.w[0] {
 		sxy += w * o.Stokes[0][i] * f.m[0][i]
 		sxx += w * f.m[0][i] * f.m[0][i]
 	}
 	if sxx > 0 {
-		scale = sxy / sxx
+		scale = math.Max(sxy/sxx, 0)
 	}
 	for k := range o.Use {
 		if !o.Use[k] {
@@ -190,7 +201,8 @@ func (f *Fitter) FitSpectrum(ms *ModelSpectrum) Fit {
 			nu++
 		}
 	}
-	fit := Fit{Checkpoint: ms.Checkpoint, Saturation: ms.Saturation, Shift: best, Scale: scale, Chi2: chi, N: o.Channels(), NUsed: nu}
+	fit := Fit{Checkpoint: ms.Checkpoint, Saturation: ms.Saturation, Shift: best, Scale: scale, Chi2: chi, N: o.Channels(), NUsed: nu,
+		ShiftAtBound: scale > 0 && !math.IsInf(f.opt.MaxShift, 1) && math.Abs(best) >= f.opt.MaxShift-f.dv/2}
 	fit.RedChi2 = tot / float64(fit.N*nu-3)
 	return fit
 }

@@ -198,3 +198,68 @@ func TestFitRecoversShift(t *testing.T) {
 		t.Errorf("shift %.2f m/s, scale %.5f; want 1234, 3", f.Shift, f.Scale)
 	}
 }
+
+// gaussModel is a noise-free test model: a Gaussian line of 1/e half-width
+// 1 km/s at velocity 0 on 400 channels of 50 m/s, with Q shaped like I.
+func gaussModel() ModelSpectrum {
+	var ms ModelSpectrum
+	for i := 0; i < 400; i++ {
+		v := float64(i-200) * 50
+		x := v / 1000
+		ms.Velocity = append(ms.Velocity, v)
+		I := math.Exp(-x * x)
+		ms.Stokes[0] = append(ms.Stokes[0], I)
+		ms.Stokes[1] = append(ms.Stokes[1], 0.2*I)
+		ms.Stokes[2] = append(ms.Stokes[2], 0)
+		ms.Stokes[3] = append(ms.Stokes[3], 0)
+	}
+	return ms
+}
+
+// observedFrom samples f(v) (m/s) on -10..+30 km/s in 100 m/s channels,
+// errors 0.01, Stokes I only.
+func observedFrom(f func(v float64) float64) *Observed {
+	o := &Observed{Unit: "K"}
+	o.Use[0] = true
+	for i := 0; i <= 400; i++ {
+		v := -10000 + float64(i)*100
+		o.Velocity = append(o.Velocity, v)
+		o.Stokes[0] = append(o.Stokes[0], f(v))
+		o.Err[0] = append(o.Err[0], 0.01)
+	}
+	return o
+}
+
+// TestFitScaleNonNegative: an observation whose only feature within the
+// allowed shifts is a dip would be fitted by an inverted model; the scale
+// is held at >= 0 (a maser emits), so the best fit there is scale 0.
+func TestFitScaleNonNegative(t *testing.T) {
+	ms := gaussModel()
+	o := observedFrom(func(v float64) float64 {
+		x, y := v/1000, (v-20000)/1000
+		return -2*math.Exp(-x*x) + 5*math.Exp(-y*y)
+	})
+	f := NewFitter(o, FitOptions{MaxShift: 5000}).FitSpectrum(&ms)
+	if f.Scale < 0 {
+		t.Errorf("scale %g < 0", f.Scale)
+	}
+	if f.Scale != 0 {
+		t.Errorf("scale %g, want 0: no emission within the allowed shifts", f.Scale)
+	}
+}
+
+// TestFitShiftAtBound: the observation is the model shifted by 8 km/s; a
+// 5 km/s bound stops the shift at the bound, which the fit reports; without
+// a bound it finds 8 km/s (to a metre per second, as TestFitRecoversShift).
+func TestFitShiftAtBound(t *testing.T) {
+	ms := gaussModel()
+	o := observedFrom(func(v float64) float64 { x := (v - 8000) / 1000; return 3 * math.Exp(-x*x) })
+	b := NewFitter(o, FitOptions{MaxShift: 5000}).FitSpectrum(&ms)
+	if !b.ShiftAtBound || math.Abs(math.Abs(b.Shift)-5000) > 50 {
+		t.Errorf("bounded: shift %.1f m/s, at bound %v; want 5000 and true", b.Shift, b.ShiftAtBound)
+	}
+	u := NewFitter(o, FitOptions{}).FitSpectrum(&ms)
+	if u.ShiftAtBound || math.Abs(u.Shift-8000) > 1 || math.Abs(u.Scale/3-1) > 1e-3 {
+		t.Errorf("unbounded: shift %.1f m/s, scale %.4f, at bound %v; want 8000, 3, false", u.Shift, u.Scale, u.ShiftAtBound)
+	}
+}

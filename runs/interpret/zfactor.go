@@ -2,6 +2,7 @@ package interpret
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"sort"
@@ -49,7 +50,27 @@ type FactorRow struct {
 	Linearity float64
 	// Residual is rms(V - A dI/dv - C I) / rms(V) over the fitted channels.
 	Residual float64
+	// GoodFit is Residual <= MaxResidual: V has the dI/dv shape the
+	// factor assumes. Above it the factor is not a measure of B.
+	GoodFit bool
+	// BValidMin is the smallest field (gauss) at which this row lies in
+	// the populations-only regime: R/(g Omega) is given at B0 and scales
+	// as 1/B (g Omega is the linear Zeeman splitting), so the row holds
+	// for |B| >= B0 RoverGOmega/ValidLimit.
+	BValidMin float64
+	// Valid is GoodFit and RoverGOmega <= ValidLimit at B0.
+	Valid bool
 }
+
+// MaxResidual is the largest relative rms residual of the V = A dI/dv +
+// C I fit for which the factor is reported as a good fit (common
+// practice: a residual of 10 % of V means V is not dI/dv-shaped).
+const MaxResidual = 0.1
+
+// ErrNoAngles is returned by ZeemanFactors when every angle is 90 deg:
+// there B cos(theta) = 0 and V carries no field, so the factor is
+// undefined.
+var ErrNoAngles = errors.New("theta = 90 deg only: B cos(theta) = 0 there, so V carries no field and the Zeeman factor is undefined; give angles other than 90 deg")
 
 // Factors is the result of ZeemanFactors.
 type Factors struct {
@@ -58,8 +79,13 @@ type Factors struct {
 	Component  int     // index or Blend
 	B0         float64 // gauss
 	// Window is the velocity range of the fit, m/s (radio convention).
-	Window   [2]float64
-	Linear   float64 // m/s per gauss, the single-component value used
+	Window [2]float64
+	Linear float64 // m/s per gauss, the single-component value used
+	// BMax is the field (gauss) up to which the factors hold as constants:
+	// the Zeeman splitting stays below 0.1 Doppler widths (Watson & Wyld
+	// 2001) and the fitted components' shifts linear (levels.Component.
+	// LinearUpTo).
+	BMax     float64
 	Rows     []FactorRow
 	Warnings []string
 }
@@ -144,6 +170,18 @@ func ZeemanFactors(ctx context.Context, spec FactorSpec, workers int, run RunFun
 			}
 		}
 	}
+	f.BMax = 0.1 * vd / maxSplit
+	strongest := 0.0
+	for _, c := range comps {
+		strongest = math.Max(strongest, c.Strength)
+	}
+	for i, c := range comps {
+		// Components below 5 % of the strongest hardly move the blend.
+		use := i == spec.Component || spec.Component == Blend && c.Strength >= 0.05*strongest
+		if use && c.LinearUpTo > 0 {
+			f.BMax = math.Min(f.BMax, c.LinearUpTo)
+		}
+	}
 	if r := f.B0 * maxSplit / vd; r > 0.1 {
 		f.Warnings = append(f.Warnings, fmt.Sprintf("splitting/Doppler width = %.3g at B0 = %.4g G: above 0.1 V is no longer linear in B (Watson & Wyld 2001)", r, f.B0))
 	}
@@ -209,6 +247,9 @@ func ZeemanFactors(ctx context.Context, spec FactorSpec, workers int, run RunFun
 		}
 		thetas = append(thetas, th)
 	}
+	if len(thetas) == 0 {
+		return nil, ErrNoAngles
+	}
 	sort.Float64s(thetas)
 	var cases []Case
 	for _, th := range thetas {
@@ -252,6 +293,9 @@ func ZeemanFactors(ctx context.Context, spec FactorSpec, workers int, run RunFun
 			row.Ratio = row.Factor / f.Linear
 			row.PVPerG = cp.PV / (f.B0 * math.Abs(ct))
 			row.Linearity = math.NaN()
+			row.GoodFit = resid <= MaxResidual
+			row.BValidMin = f.B0 * cp.RoverGOmega / ValidLimit
+			row.Valid = row.GoodFit && cp.RoverGOmega <= ValidLimit
 			if k := matchCheckpoint(t2, cp.Saturation, j); k >= 0 {
 				c2 := t2.Checkpoints[k]
 				dIdv = Derivative(dIdv, t2.Velocity, c2.I)

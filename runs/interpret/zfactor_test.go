@@ -2,6 +2,7 @@ package interpret
 
 import (
 	"context"
+	"errors"
 	"math"
 	"testing"
 
@@ -81,6 +82,33 @@ func TestZeemanFactorThinLimit(t *testing.T) {
 			if math.Abs(r.Linearity) > 0.01 {
 				t.Errorf("%s: linearity %.3g above 1 %%", name, r.Linearity)
 			}
+			// In the thin limit V is dI/dv-shaped: a good fit. R/(g Omega)
+			// scales as 1/B, so the row holds from B0 R/(g Omega)/0.1 on.
+			if !r.GoodFit || r.Residual > MaxResidual {
+				t.Errorf("%s: residual %.3g not a good fit", name, r.Residual)
+			}
+			if want := f.B0 * r.RoverGOmega / ValidLimit; math.Abs(r.BValidMin/want-1) > 1e-12 || !(r.BValidMin < f.B0) {
+				t.Errorf("%s: valid from %g G, want %g G (below B0 = %g G)", name, r.BValidMin, want, f.B0)
+			}
 		}
+		if !(f.BMax > f.B0) {
+			t.Errorf("%s: linear range up to %g G, not above B0 = %g G", name, f.BMax, f.B0)
+		}
+	}
+}
+
+// At theta = 90 deg B cos(theta) = 0: the factor is undefined.
+func TestZeemanFactorPerpendicularOnly(t *testing.T) {
+	sp, err := species.Resolve("sio-v1-j1-0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	spec := FactorSpec{Base: transfer.Params{Species: sp, Doppler: 500, Saturation: 10}, Thetas: []float64{math.Pi / 2}, Component: Blend}
+	run := func(context.Context, transfer.Params) (*transfer.Trajectory, error) {
+		t.Error("a model ran for theta = 90 deg only")
+		return nil, errors.New("not run")
+	}
+	if _, err := ZeemanFactors(context.Background(), spec, 1, run); !errors.Is(err, ErrNoAngles) {
+		t.Errorf("err = %v, want ErrNoAngles", err)
 	}
 }
