@@ -5,15 +5,21 @@
 // # Run directory
 //
 //	config.toml        the resolved configuration (config.Study.Resolved)
-//	manifest.json      program version, config hash, sessions (times, workers,
-//	                   shard), per-model status: done, failed (with the
-//	                   error) or pending
+//	manifest.json      program (with the VCS revision when the build has
+//	                   one), version, config hash, parameter_columns and
+//	                   varied_columns, sessions (times, workers, shard),
+//	                   per-model status: done, failed (with the error) or
+//	                   pending
 //	summary.csv        ECSV table, one row per model and checkpoint
 //	models/m0007.ecsv  the summary rows of one model, with its status; the
 //	                   record that the model is finished
 //	spectra/m0007.ecsv emergent Stokes spectra of one model at every
-//	                   checkpoint, long form, K, sky frame
+//	                   checkpoint, long form, K, sky frame, with the
+//	                   checkpoint's r_over_gomega and valid on each row
 //	plots/             figures drawn from the tables alone (see Plot)
+//
+// The manifest records the status of every model before figures are
+// drawn, so a failure to draw (PlotError) leaves a complete record.
 //
 // Every file is written to a temporary file in the same directory and
 // renamed into place, so a crash or kill leaves either the old file or the

@@ -27,10 +27,14 @@ type Manifest struct {
 	Determinism string `json:"determinism"`
 	// Seeds are the seeds of the random sweeps in the config, by key.
 	Seeds map[string]int64 `json:"seeds"`
-	// Swept lists the swept parameters (summary column names).
-	Swept    []string      `json:"swept"`
-	Sessions []Session     `json:"sessions"`
-	Models   []ModelStatus `json:"models"`
+	// ParameterColumns lists the parameter columns of the tables, in
+	// order: B_mG, theta_deg, chi_deg, then one per other swept key.
+	ParameterColumns []string `json:"parameter_columns"`
+	// VariedColumns lists the parameter columns whose value differs
+	// between models (a B x theta study: B_mG, theta_deg).
+	VariedColumns []string      `json:"varied_columns"`
+	Sessions      []Session     `json:"sessions"`
+	Models        []ModelStatus `json:"models"`
 }
 
 // Session records one invocation that worked on the directory.
@@ -67,26 +71,38 @@ func stamp(t time.Time) string { return t.UTC().Format(time.RFC3339Nano) }
 
 func newManifest(st *config.Study, l layout, sh Shard, now time.Time) *Manifest {
 	m := &Manifest{
-		Program:     "maserpol",
-		Version:     Version,
-		ConfigHash:  st.Hash,
-		Status:      StudyIncomplete,
-		Started:     stamp(now),
-		Shard:       sh.String(),
-		Determinism: determinismNote,
-		Seeds:       seedsOf(st.Resolved),
-		Study:       studyName(st.Resolved),
-		Swept:       append([]string{}, l.params[len(paramColumnDefs):]...),
+		Program:          Program(),
+		Version:          Version,
+		ConfigHash:       st.Hash,
+		Status:           StudyIncomplete,
+		Started:          stamp(now),
+		Shard:            sh.String(),
+		Determinism:      determinismNote,
+		Seeds:            seedsOf(st.Resolved),
+		Study:            studyName(st.Resolved),
+		ParameterColumns: append([]string{}, l.params...),
+		VariedColumns:    []string{},
 	}
+	varied := make([]bool, len(l.params))
+	var first []float64
 	for i := range st.Models {
 		md := &st.Models[i]
 		ms := ModelStatus{Name: md.Name, Index: md.Index, Species: md.Species, Status: StatusPending, Parameters: map[string]float64{}}
 		if pv, err := l.paramValues(md); err == nil {
+			if first == nil {
+				first = pv
+			}
 			for j, n := range l.params {
 				ms.Parameters[n] = pv[j]
+				varied[j] = varied[j] || pv[j] != first[j]
 			}
 		}
 		m.Models = append(m.Models, ms)
+	}
+	for j, v := range varied {
+		if v {
+			m.VariedColumns = append(m.VariedColumns, l.params[j])
+		}
 	}
 	return m
 }

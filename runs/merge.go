@@ -116,7 +116,7 @@ func Merge(dst string, srcs ...string) (*Manifest, error) {
 	if out.Status != StudyIncomplete {
 		out.Finished = stamp(time.Now())
 	}
-	if err := writeSummary(dst, &out, nil); err != nil {
+	if _, err := writeSummary(dst, &out, nil); err != nil {
 		return nil, err
 	}
 	if err := out.write(dst); err != nil {

@@ -1,6 +1,7 @@
 package runs
 
 import (
+	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -15,20 +16,26 @@ import (
 )
 
 // maxCurves is the most curves a figure carries before it is split, so
-// legends stay readable at column width.
-const maxCurves = 8
+// that every curve has a legend entry (figures.DefaultMaxLegend).
+const maxCurves = figures.DefaultMaxLegend
 
 // Plot draws the figures of a run directory from its tables alone
 // (summary.csv and spectra/), into dir/plots, in the given formats
-// (default png and svg). It returns the files written.
+// (default png and svg). It returns the files written. A figure with
+// nothing to draw is skipped, and note (if not nil) is told so.
 //
 //	plots/<model>_spectra.*   I, Q, U, V at the last checkpoint, K
 //	plots/<model>_evolution.* I, Q, U, V over I_peak at up to three checkpoints
-//	plots/saturation[_k].*    m_l and P_V against saturation, one curve per model
+//	plots/saturation[_<tag>][_k].*
+//	                          m_l and P_V against saturation, one curve per
+//	                          model; with more than six models, one figure per
+//	                          value of the first varying parameter, named by it
+//	                          (e.g. saturation_B3G), split further into figures
+//	                          of at most six curves (_1, _2, ...)
 //	plots/theta[_k].*         m_l and EVPA against theta at the last checkpoint,
 //	                          one curve per value of the other parameters
 //	                          (only when theta varies)
-func Plot(dir string, formats []string) ([]string, error) {
+func Plot(dir string, formats []string, note func(string)) ([]string, error) {
 	if len(formats) == 0 {
 		formats = []string{"png", "svg"}
 	}
@@ -48,35 +55,48 @@ func Plot(dir string, formats []string) ([]string, error) {
 		return nil, err
 	}
 	removeTemps(pd)
-	removeOwnFigures(pd)
+	removeOwnFigures(pd, formats)
 	var out []string
-	add := func(p []string, err error) error {
+	save := func(fig *figures.Stack, name string) error {
+		p, err := fig.Save(filepath.Join(pd, name), formats)
 		out = append(out, p...)
+		if errors.Is(err, figures.ErrNoData) {
+			if note != nil {
+				note(fmt.Sprintf("figure %s skipped: %v", name, err))
+			}
+			return nil
+		}
 		return err
 	}
 	for _, m := range models {
-		if err := add(plotSpectra(dir, pd, m, formats)); err != nil {
+		if err := plotSpectra(dir, m, save); err != nil {
 			return out, err
 		}
 	}
-	if err := add(plotSaturation(pd, models, formats)); err != nil {
+	if err := plotSaturation(models, save); err != nil {
 		return out, err
 	}
-	if err := add(plotTheta(pd, models, formats)); err != nil {
+	if err := plotTheta(models, save); err != nil {
 		return out, err
 	}
 	return out, nil
 }
 
+// saver writes one figure under a base name in plots/.
+type saver func(fig *figures.Stack, name string) error
+
 // ownFigure matches the names Plot writes, so that a redraw removes
 // figures of an earlier layout (e.g. saturation_3 when there are now two)
 // and leaves other files alone.
-var ownFigure = regexp.MustCompile(`^(m\d+_(spectra|evolution)|saturation(_\d+)?|theta(_\d+)?)\.(png|svg|pdf|eps)$`)
+var ownFigure = regexp.MustCompile(`^(m\d+_(spectra|evolution)|saturation(_[A-Za-z0-9.+-]+)?|theta(_\d+)?)\.(png|svg|pdf|eps)$`)
 
-func removeOwnFigures(pd string) {
+// removeOwnFigures removes the figures Plot draws in the formats about to
+// be drawn, and only those: a redraw in PDF keeps the PNG files.
+func removeOwnFigures(pd string, formats []string) {
 	ents, _ := os.ReadDir(pd)
 	for _, e := range ents {
-		if ownFigure.MatchString(e.Name()) {
+		ext := strings.ToLower(strings.TrimPrefix(filepath.Ext(e.Name()), "."))
+		if ownFigure.MatchString(e.Name()) && contains(formats, ext) {
 			os.Remove(filepath.Join(pd, e.Name()))
 		}
 	}
@@ -231,19 +251,81 @@ func label(m *summaryModel, cols []string, species bool, skip string) string {
 	return strings.Join(parts, ", ")
 }
 
-func plotSpectra(dir, pd string, m *summaryModel, formats []string) ([]string, error) {
+// paramTag is a parameter value for a file name: ASCII symbol, value and
+// unit without spaces, e.g. "B3G", "theta30deg".
+func paramTag(p param) string {
+	sym, ok := tagSymbols[p.col.Name]
+	if !ok {
+		sym = p.col.Name
+		for _, u := range unitSuffixes {
+			sym = strings.TrimSuffix(sym, u.suffix)
+		}
+	}
+	x, u := p.value, p.col.Unit
+	if u == "mG" && math.Abs(x) >= 1000 {
+		x, u = x/1000, "G"
+	}
+	return strings.Map(func(r rune) rune {
+		if r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r >= '0' && r <= '9' || r == '.' || r == '-' || r == '+' {
+			return r
+		}
+		return -1
+	}, sym+number(x)+u)
+}
+
+var tagSymbols = map[string]string{"B_mG": "B", "theta_deg": "theta", "chi_deg": "chi", "doppler_kms": "vD", "T_K": "T", "tb_K": "Tseed", "dOmega_sr": "dOmega"}
+
+// roundoffNote says why a panel of round-off (Stokes or polarization
+// name) was drawn as zero, when the parameters of every model give the
+// reason by symmetry: V vanishes at theta = 90 deg, Q and U at theta = 0,
+// U when the projected field lies along a Q axis (chi = 0 or 90 deg), Q
+// when it lies at 45 deg to them.
+func roundoffNote(name string, ms []*summaryModel) string {
+	all := func(col string, ok func(x float64) bool) (float64, bool) {
+		var x float64
+		for i, m := range ms {
+			v, found := m.value(col)
+			if !found || !ok(v) || i > 0 && v != x {
+				return 0, false
+			}
+			x = v
+		}
+		return x, len(ms) > 0
+	}
+	near := func(a, b float64) bool { return math.Abs(a-b) < 1e-9 }
+	mod := func(x, m float64) float64 { return math.Mod(math.Mod(x, m)+m, m) }
+	if name == "V" || name == "P_V" {
+		if th, ok := all("theta_deg", func(x float64) bool { return near(mod(x, 180), 90) }); ok {
+			return name + " = 0 (θ = " + number(th) + " deg)"
+		}
+	} else {
+		if th, ok := all("theta_deg", func(x float64) bool { return near(mod(x, 180), 0) }); ok {
+			return name + " = 0 (θ = " + number(th) + " deg)"
+		}
+		want := 0.0 // U = 0 for chi = 0, 90 deg
+		if name == "Q" {
+			want = 45
+		}
+		if chi, ok := all("chi_deg", func(x float64) bool { return near(mod(x, 90), want) }); ok {
+			return name + " = 0 (χ = " + number(chi) + " deg)"
+		}
+	}
+	return name + " = 0 (below 1e-9 of the peak of I)"
+}
+
+func plotSpectra(dir string, m *summaryModel, save saver) error {
 	t, err := ecsv.ReadFile(filepath.Join(dir, "spectra", m.name+".ecsv"))
 	if err != nil {
-		return nil, err
+		return err
 	}
 	ck, err := t.Floats("checkpoint")
 	if err != nil {
-		return nil, err
+		return err
 	}
 	cols := map[string][]float64{}
 	for _, c := range []string{"saturation", "velocity_kms", "I", "Q", "U", "V"} {
 		if cols[c], err = t.Floats(c); err != nil {
-			return nil, err
+			return err
 		}
 	}
 	// Split the long-form table by checkpoint.
@@ -259,7 +341,7 @@ func plotSpectra(dir, pd string, m *summaryModel, formats []string) ([]string, e
 		blocks[len(blocks)-1].to = i + 1
 	}
 	if len(blocks) == 0 {
-		return nil, fmt.Errorf("%s: no rows", t.File)
+		return fmt.Errorf("%s: no rows", t.File)
 	}
 	last := blocks[len(blocks)-1]
 	vel := cols["velocity_kms"][last.from:last.to]
@@ -288,15 +370,21 @@ func plotSpectra(dir, pd string, m *summaryModel, formats []string) ([]string, e
 	for _, p := range m.params[:min(3, len(m.params))] {
 		params = append(params, paramLabel(p))
 	}
-	title := m.name + " (" + m.species + ")\n" + strings.Join(params, ", ")
+	renote := func(fig *figures.Stack) {
+		for i := 1; i < len(fig.Panels); i++ {
+			if pn := &fig.Panels[i]; pn.Zeroed {
+				pn.Note = roundoffNote([]string{"I", "Q", "U", "V"}[i], []*summaryModel{m})
+			}
+		}
+	}
 	head := m.name + " (" + m.species + "), R/Γ = " + number(last.sat)
-	if !m.valid[len(m.valid)-1] {
+	if n := len(m.valid); n > 0 && !m.valid[n-1] {
 		head += ", outside R/gΩ ≤ 0.1"
 	}
 	fig := figures.Spectra(head+"\n"+strings.Join(params, ", "), vel, []figures.Stokes{stokes(last, false)})
-	out, err := fig.Save(filepath.Join(pd, m.name+"_spectra"), formats)
-	if err != nil || len(blocks) < 2 {
-		return out, err
+	renote(fig)
+	if err := save(fig, m.name+"_spectra"); err != nil || len(blocks) < 2 {
+		return err
 	}
 	// Evolution: the last checkpoint and those nearest to saturation 1 and
 	// 0.01, normalised by their own peak so that the shapes compare.
@@ -322,12 +410,12 @@ func plotSpectra(dir, pd string, m *summaryModel, formats []string) ([]string, e
 	for _, b := range picked {
 		sts = append(sts, stokes(b, true))
 	}
-	ev := figures.Spectra(title, vel, sts)
+	ev := figures.Spectra(m.name+" ("+m.species+")\n"+strings.Join(params, ", "), vel, sts)
+	renote(ev)
 	for i, p := range []string{"I/I_peak", "Q/I_peak", "U/I_peak", "V/I_peak"} {
 		ev.Panels[i].YLabel = p
 	}
-	more, err := ev.Save(filepath.Join(pd, m.name+"_evolution"), formats)
-	return append(out, more...), err
+	return save(ev, m.name+"_evolution")
 }
 
 // splitCurves splits each model's curve into its valid part (line) and
@@ -347,7 +435,10 @@ func splitCurves(x, y []float64, valid []bool, lab string, style int) []figures.
 			b.X, b.Y = append(b.X, x[i]), append(b.Y, y[i])
 		}
 	}
-	out := []figures.Curve{a}
+	var out []figures.Curve
+	if len(a.X) > 0 {
+		out = append(out, a)
+	}
 	if len(b.X) > 0 {
 		if len(a.X) == 0 {
 			b.Label = lab
@@ -366,22 +457,15 @@ func chunks[T any](xs []T, n int) [][]T {
 	return append(out, xs)
 }
 
-func figName(base string, k, n int) string {
-	if n == 1 {
-		return base
-	}
-	return fmt.Sprintf("%s_%d", base, k+1)
-}
-
-func plotSaturation(pd string, models []*summaryModel, formats []string) ([]string, error) {
+func plotSaturation(models []*summaryModel, save saver) error {
 	cols, sp := varying(models)
 	// With many models, one figure per value of the first varying
 	// parameter, curves for the others; then chunks of maxCurves.
 	type group struct {
-		title string
-		ms    []*summaryModel
+		title, tag string
+		ms         []*summaryModel
 	}
-	groups := []*group{{title: "", ms: models}}
+	groups := []*group{{ms: models}}
 	if len(models) > maxCurves && len(cols) > 1 {
 		groups = nil
 		idx := map[float64]*group{}
@@ -395,7 +479,7 @@ func plotSaturation(pd string, models []*summaryModel, formats []string) ([]stri
 						p = q
 					}
 				}
-				g = &group{title: paramLabel(p)}
+				g = &group{title: paramLabel(p), tag: "_" + paramTag(p)}
 				idx[v] = g
 				groups = append(groups, g)
 			}
@@ -403,53 +487,54 @@ func plotSaturation(pd string, models []*summaryModel, formats []string) ([]stri
 		}
 		cols = cols[1:]
 	}
-	type figure struct {
-		title string
-		ms    []*summaryModel
-	}
-	var figs []figure
 	for _, g := range groups {
-		for _, c := range chunks(g.ms, maxCurves) {
-			figs = append(figs, figure{g.title, c})
+		parts := chunks(g.ms, maxCurves)
+		for k, ms := range parts {
+			var ml, pv []figures.Curve
+			anyInvalid := false
+			for i, m := range ms {
+				lab := label(m, cols, sp, "")
+				if lab == "" {
+					lab = m.name
+				}
+				// P_V below 1e-9 is round-off (theta = 90 deg).
+				p := make([]float64, len(m.pv))
+				for j, x := range m.pv {
+					if !(math.Abs(x) <= figures.RoundoffLevel) { // keeps NaN
+						p[j] = x
+					}
+				}
+				ml = append(ml, splitCurves(m.sat, m.ml, m.valid, lab, i)...)
+				pv = append(pv, splitCurves(m.sat, p, m.valid, "", i)...)
+				for _, v := range m.valid {
+					anyInvalid = anyInvalid || !v
+				}
+			}
+			title := "polarization against saturation"
+			if g.title != "" {
+				title += ", " + g.title
+			}
+			if anyInvalid {
+				title += "\nmarkers: outside R/gΩ ≤ 0.1"
+			}
+			fig := figures.Saturation(title, ml, pv)
+			figures.ZeroRoundoff(&fig.Panels[1], 0, roundoffNote("P_V", ms))
+			name := "saturation" + g.tag
+			if len(parts) > 1 {
+				name += "_" + strconv.Itoa(k+1)
+			}
+			if err := save(fig, name); err != nil {
+				return err
+			}
 		}
 	}
-	var out []string
-	for k, f := range figs {
-		var ml, pv []figures.Curve
-		anyInvalid := false
-		for i, m := range f.ms {
-			lab := label(m, cols, sp, "")
-			if lab == "" {
-				lab = m.name
-			}
-			ml = append(ml, splitCurves(m.sat, m.ml, m.valid, lab, i)...)
-			pv = append(pv, splitCurves(m.sat, m.pv, m.valid, "", i)...)
-			for _, v := range m.valid {
-				anyInvalid = anyInvalid || !v
-			}
-		}
-		title := "polarization against saturation"
-		if f.title != "" {
-			title += ", " + f.title
-		}
-		if anyInvalid {
-			title += "\nmarkers: outside R/gΩ ≤ 0.1"
-		}
-		fig := figures.Saturation(title, ml, pv)
-		fig.Panels[0].LegendLeft = true
-		p, err := fig.Save(filepath.Join(pd, figName("saturation", k, len(figs))), formats)
-		out = append(out, p...)
-		if err != nil {
-			return out, err
-		}
-	}
-	return out, nil
+	return nil
 }
 
-func plotTheta(pd string, models []*summaryModel, formats []string) ([]string, error) {
+func plotTheta(models []*summaryModel, save saver) error {
 	cols, sp := varying(models)
 	if !contains(cols, "theta_deg") {
-		return nil, nil
+		return nil
 	}
 	// Group by everything but theta; order groups by first appearance.
 	type group struct {
@@ -469,10 +554,10 @@ func plotTheta(pd string, models []*summaryModel, formats []string) ([]string, e
 		g.ms = append(g.ms, m)
 	}
 	parts := chunks(gs, maxCurves)
-	var out []string
 	for k, part := range parts {
 		var ml, ev []figures.Curve
 		anyInvalid := false
+		satLo, satHi := math.Inf(1), math.Inf(-1)
 		for i, g := range part {
 			sort.SliceStable(g.ms, func(a, b int) bool {
 				ta, _ := g.ms[a].value("theta_deg")
@@ -487,18 +572,27 @@ func plotTheta(pd string, models []*summaryModel, formats []string) ([]string, e
 				c1.X, c1.Y = append(c1.X, th), append(c1.Y, m.ml[n])
 				c2.X, c2.Y = append(c2.X, th), append(c2.Y, m.evpa[n])
 				anyInvalid = anyInvalid || !m.valid[n]
+				satLo, satHi = math.Min(satLo, m.sat[n]), math.Max(satHi, m.sat[n])
+			}
+			if c1.Label == "" {
+				c1.Label = "all models"
 			}
 			ml, ev = append(ml, c1), append(ev, c2)
 		}
-		title := "at the last checkpoint"
-		if anyInvalid {
-			title += "; some points outside R/gΩ ≤ 0.1"
+		title := "at the last checkpoint, R/Γ = " + number(satHi)
+		if satHi > satLo*1.01 {
+			title = "at the last checkpoint, R/Γ = " + number(satLo) + " to " + number(satHi)
 		}
-		p, err := figures.Theta(title, ml, ev).Save(filepath.Join(pd, figName("theta", k, len(parts))), formats)
-		out = append(out, p...)
-		if err != nil {
-			return out, err
+		if anyInvalid {
+			title += "\nsome points outside R/gΩ ≤ 0.1"
+		}
+		name := "theta"
+		if len(parts) > 1 {
+			name += "_" + strconv.Itoa(k+1)
+		}
+		if err := save(figures.Theta(title, ml, ev), name); err != nil {
+			return err
 		}
 	}
-	return out, nil
+	return nil
 }

@@ -31,7 +31,7 @@ func newProgress(w io.Writer, todo, already, total int) *progress {
 		return p
 	}
 	if already > 0 {
-		fmt.Fprintf(w, "maserpol: %d of %d models already finished; running %d\n", already, total, todo)
+		fmt.Fprintf(w, "maserpol: %d of %s already finished; running %d\n", already, models(total), todo)
 	}
 	if todo == 0 {
 		return p
@@ -48,7 +48,7 @@ func newProgress(w io.Writer, todo, already, total int) *progress {
 		)
 		p.bar.RenderBlank()
 	} else {
-		fmt.Fprintf(w, "maserpol: running %d models\n", todo)
+		fmt.Fprintf(w, "maserpol: running %s\n", models(todo))
 	}
 	return p
 }
@@ -81,5 +81,13 @@ func (p *progress) finish() {
 		p.bar.Exit()
 		fmt.Fprintln(p.w)
 	}
-	fmt.Fprintf(p.w, "maserpol: %d of %d models finished (%.1f s)\n", p.n, p.total, time.Since(p.start).Seconds())
+	fmt.Fprintf(p.w, "maserpol: %d of %s finished (%.1f s)\n", p.n, models(p.total), time.Since(p.start).Seconds())
+}
+
+// models writes "1 model" or "n models".
+func models(n int) string {
+	if n == 1 {
+		return "1 model"
+	}
+	return fmt.Sprintf("%d models", n)
 }

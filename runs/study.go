@@ -54,8 +54,27 @@ type Report struct {
 	Failures          []string
 	Warnings          []Warning // per-model warnings, including validity, in model order
 	Figures           []string
-	Summary, Manifest string // paths
+	Notes             []string // about figures skipped
+	Summary, Manifest string   // paths
+	// Validity counts the checkpoints of the finished models (in this
+	// directory) inside the populations-only regime.
+	Validity ValidityStats
 }
+
+// ValidityStats counts checkpoints inside the populations-only regime,
+// R/(g Omega) <= ValidLimit.
+type ValidityStats struct {
+	Checkpoints, Valid int
+	MaxRoverGOmega     float64 // largest R/(g Omega) over all checkpoints
+}
+
+// PlotError is a failure to draw figures after the tables were written:
+// the results are complete (manifest.json says so); "maserpol plot"
+// redraws.
+type PlotError struct{ Err error }
+
+func (e *PlotError) Error() string { return "drawing figures: " + e.Err.Error() }
+func (e *PlotError) Unwrap() error { return e.Err }
 
 // manifestEvery is the least interval between manifest rewrites during a
 // session.
@@ -218,16 +237,13 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 			rep.Pending++
 		}
 	}
-	if err := writeSummary(dir, man, l.cols); err != nil && writeErr == nil {
+	vs, err := writeSummary(dir, man, l.cols)
+	if err != nil && writeErr == nil {
 		writeErr = err
 	}
-	if ctx.Err() == nil && writeErr == nil && st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
-		figs, err := Plot(dir, st.Output.Formats)
-		rep.Figures = figs
-		if err != nil {
-			writeErr = fmt.Errorf("drawing figures: %w", err)
-		}
-	}
+	rep.Validity = vs
+	// Record the models' status before drawing: figures are derived from
+	// the tables, and a failure to draw must not hide finished models.
 	man.update()
 	end := stamp(time.Now())
 	sess.Finished = end
@@ -238,6 +254,13 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	}
 	if err := man.write(dir); err != nil && writeErr == nil {
 		writeErr = err
+	}
+	if ctx.Err() == nil && writeErr == nil && st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
+		figs, err := Plot(dir, st.Output.Formats, func(n string) { rep.Notes = append(rep.Notes, n) })
+		rep.Figures = figs
+		if err != nil {
+			writeErr = &PlotError{err}
+		}
 	}
 	if writeErr != nil {
 		return rep, writeErr
@@ -295,20 +318,37 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 	if err != nil {
 		return nil, err
 	}
-	warnings = append(warnings, tr.Warnings...)
-	saidValidity := false
-	for _, w := range tr.Warnings {
-		saidValidity = saidValidity || strings.Contains(w, "Omega")
-	}
-	if w := validityWarning(tr); w != "" && !saidValidity {
-		warnings = append(warnings, w)
-	}
-	return warnings, nil
+	return modelWarnings(tr), nil
 }
 
-// validityWarning describes the checkpoints outside the populations-only
-// regime, or returns "".
+// modelWarnings are the warnings of a model: those of the transfer
+// solution, with its validity warning replaced by one that also gives the
+// largest R/(g Omega) reached.
+func modelWarnings(tr *transfer.Trajectory) []string {
+	var out []string
+	for _, w := range tr.Warnings {
+		if !isValidityWarning(w) {
+			out = append(out, w)
+		}
+	}
+	if w := validityWarning(tr); w != "" {
+		out = append(out, w)
+	}
+	return out
+}
+
+// isValidityWarning recognises the R/gOmega warning of package transfer
+// (the zero-field warning is kept as it is).
+func isValidityWarning(w string) bool {
+	return strings.HasPrefix(w, "R/gOmega") && strings.Contains(w, "exceeds")
+}
+
+// validityWarning says from where on a model is outside the
+// populations-only regime and how far, or returns "".
 func validityWarning(tr *transfer.Trajectory) string {
+	if tr.GOmega == 0 {
+		return "" // package transfer says so
+	}
 	n, first := 0, math.Inf(1)
 	maxR := 0.0
 	for _, cp := range tr.Checkpoints {
@@ -321,8 +361,8 @@ func validityWarning(tr *transfer.Trajectory) string {
 	if n == 0 {
 		return ""
 	}
-	return fmt.Sprintf("R/(g Omega) exceeds %g at %d of %d checkpoints (from saturation %.3g; largest %.3g): the populations-only model does not hold there (valid = False in the tables)",
-		ValidLimit, n, len(tr.Checkpoints), first, maxR)
+	return fmt.Sprintf("R/gOmega exceeds %g from R/Gamma = %.3g on (g Omega = %.3g s^-1, max R/gOmega = %.3g; %d of %d checkpoints): Zeeman coherences, neglected by the rate equations, matter there (valid = False in the tables)",
+		ValidLimit, first, tr.GOmega, maxR, n, len(tr.Checkpoints))
 }
 
 // finished reads the status recorded in models/<name>.ecsv: done only if
@@ -407,15 +447,16 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 // writeSummary concatenates the rows of the finished models in index
 // order. It needs only the directory and its manifest, so Merge builds the
 // same bytes as Execute; cols is the layout to use when no model is done.
-func writeSummary(dir string, man *Manifest, cols []ecsv.Column) error {
+func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats, error) {
+	var vs ValidityStats
 	meta := []ecsv.Meta{
 		{Key: "program", Value: "maserpol " + Version},
 		{Key: "config_hash", Value: man.ConfigHash},
 		{Key: "validity", Value: validityNote},
 		{Key: "models", Value: strconv.Itoa(len(man.Models))},
 	}
-	if len(man.Swept) > 0 {
-		meta = append(meta, ecsv.Meta{Key: "swept", Value: strings.Join(man.Swept, ", ")})
+	if len(man.VariedColumns) > 0 {
+		meta = append(meta, ecsv.Meta{Key: "varied_columns", Value: strings.Join(man.VariedColumns, ", ")})
 	}
 	var tabs []*ecsv.Table
 	for _, ms := range man.Models {
@@ -424,20 +465,38 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) error {
 		}
 		t, err := ecsv.ReadFile(filepath.Join(dir, "models", ms.Name+".ecsv"))
 		if err != nil {
-			return err
+			return vs, err
 		}
 		if cols == nil {
 			cols = t.Columns
 		}
 		if len(t.Columns) != len(cols) {
-			return fmt.Errorf("%s: %d columns, summary has %d", t.File, len(t.Columns), len(cols))
+			return vs, fmt.Errorf("%s: %d columns, summary has %d", t.File, len(t.Columns), len(cols))
+		}
+		r, err := t.Floats("r_over_gomega")
+		if err != nil {
+			return vs, err
+		}
+		ok, err := t.Bools("valid")
+		if err != nil {
+			return vs, err
+		}
+		for i := range r {
+			vs.Checkpoints++
+			if ok[i] {
+				vs.Valid++
+			}
+			// NaN (no field) counts as unbounded.
+			if math.IsNaN(r[i]) || r[i] > vs.MaxRoverGOmega {
+				vs.MaxRoverGOmega = r[i]
+			}
 		}
 		tabs = append(tabs, t)
 	}
 	if cols == nil {
-		return nil
+		return vs, nil
 	}
-	return writeAtomic(filepath.Join(dir, "summary.csv"), func(out io.Writer) error {
+	return vs, writeAtomic(filepath.Join(dir, "summary.csv"), func(out io.Writer) error {
 		w := ecsv.NewWriter(out, cols, meta)
 		for _, t := range tabs {
 			for _, r := range t.Rows {

@@ -406,9 +406,22 @@ func TestExistingDirectoryRefused(t *testing.T) {
 func TestValidityWarning(t *testing.T) {
 	st := study(t, cfg2x3)
 	rep := execute(t, st, t.TempDir(), Options{})
-	// synthetic: R/gOmega = sat/(100 B[G]); B = 10 mG gives 1 at sat 1.
-	if len(rep.Warnings) == 0 || !strings.Contains(rep.Warnings[0].Msg, "R/(g Omega) exceeds 0.1") {
-		t.Errorf("warnings %+v", rep.Warnings)
+	// synthetic: R/gOmega = sat/(100 B[G]) at sat = 0.01 ... 100; B = 10 mG
+	// gives g Omega = 1 s^-1, R/gOmega = 1 at sat 1 and 100 at sat 100.
+	want := "R/gOmega exceeds 0.1 from R/Gamma = 1 on (g Omega = 1 s^-1, max R/gOmega = 100;"
+	if len(rep.Warnings) == 0 || !strings.Contains(rep.Warnings[0].Msg, want) {
+		t.Errorf("warnings %+v, want %q", rep.Warnings, want)
+	}
+	// Valid: sat <= 0.1 at 10 mG and sat <= 0.3 at 30 mG, two of five
+	// checkpoints per model either way.
+	if v := rep.Validity; v.Checkpoints != 30 || v.Valid != 12 || v.MaxRoverGOmega != 100 {
+		t.Errorf("validity %+v, want 12 of 30, max 100", v)
+	}
+	// The validity warning of package transfer is replaced, not repeated.
+	tr, _ := synthetic(context.Background(), st.Models[0].Params)
+	tr.Warnings = append(tr.Warnings, "R/gOmega = 1 exceeds 0.1 from saturation R/Gamma = 1 on (g Omega = 1 s^-1): ...", "other")
+	if ws := modelWarnings(tr); len(ws) != 2 || ws[0] != "other" || !strings.HasPrefix(ws[1], want) {
+		t.Errorf("modelWarnings %q", ws)
 	}
 }
 

@@ -51,6 +51,8 @@ var (
 		{Name: "Q", Unit: "K", Datatype: ecsv.Float64, Description: "Stokes Q, sky frame (north-south electric vector positive)"},
 		{Name: "U", Unit: "K", Datatype: ecsv.Float64, Description: "Stokes U, sky frame (IAU)"},
 		{Name: "V", Unit: "K", Datatype: ecsv.Float64, Description: "Stokes V, IAU (RCP - LCP)"},
+		{Name: "r_over_gomega", Datatype: ecsv.Float64, Description: "R/(g Omega) at this checkpoint (repeated on each of its rows); the model is valid where <= 0.1"},
+		{Name: "valid", Datatype: ecsv.Bool, Description: "True where R/(g Omega) <= 0.1 at this checkpoint (populations-only regime)"},
 	}
 )
 
@@ -208,7 +210,7 @@ func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model,
 	} else {
 		meta = append(meta, ecsv.Meta{Key: "status", Value: StatusDone})
 		meta = append(meta, ecsv.Meta{Key: "gomega_per_s", Value: strconv.FormatFloat(tr.GOmega, 'g', -1, 64)})
-		for i, w := range tr.Warnings {
+		for i, w := range modelWarnings(tr) {
 			meta = append(meta, ecsv.Meta{Key: "warning" + strconv.Itoa(i+1), Value: w})
 		}
 	}
@@ -254,7 +256,7 @@ func writeSpectrum(buf io.Writer, st *config.Study, m *config.Model, tr *transfe
 			return &contentError{fmt.Errorf("model %s checkpoint %d: spectra have %d/%d/%d/%d channels, grid has %d", m.Name, k, len(cp.I), len(cp.Q), len(cp.U), len(cp.V), len(vel))}
 		}
 		for i := range vel {
-			if err := w.Int(k).Float(cp.Saturation).Float(vel[i]).Float(cp.I[i]).Float(cp.Q[i]).Float(cp.U[i]).Float(cp.V[i]).End(); err != nil {
+			if err := w.Int(k).Float(cp.Saturation).Float(vel[i]).Float(cp.I[i]).Float(cp.Q[i]).Float(cp.U[i]).Float(cp.V[i]).Float(cp.RoverGOmega).Bool(cp.Valid).End(); err != nil {
 				return err
 			}
 		}

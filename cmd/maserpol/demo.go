@@ -26,7 +26,7 @@ var demoStudies = []string{"irc-vela-7-sio.toml", "hydra-w4-water.toml"}
 func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("demo", stderr)
 	out := fs.String("out", "maserpol-demo", "`directory` for the demonstration runs and their configs")
-	workers := fs.Int("workers", 0, "number of models computed at once (default: the number of CPUs)")
+	workers := fs.Int("workers", 0, "number of models computed at once; 0 = one per CPU core (the default)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)

@@ -31,7 +31,11 @@ func cmdInit(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if len(pos) == 1 {
 		file = pos[0]
 	}
-	text, err := config.Starter(*sp)
+	name := "" // "-" prints the generic starter, named "example"
+	if file != "-" {
+		name = strings.TrimSuffix(filepath.Base(file), filepath.Ext(file))
+	}
+	text, err := config.StarterNamed(*sp, name)
 	if err != nil {
 		return report(stderr, usagef("%v", err))
 	}

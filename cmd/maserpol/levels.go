@@ -54,14 +54,14 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 				grid = "0:100:21 mG"
 			}
 		}
-		fields, err := parseFieldGrid(grid)
+		fields, unit, err := parseFieldGrid(grid)
 		if err != nil {
 			return report(stderr, err)
 		}
 		if sp.Unverified {
 			fmt.Fprintf(stderr, "maserpol: warning: species %s has constants not checked against a source (marked unverified); treat the numbers as illustrative\n", names[k])
 		}
-		lt, err := solveLevels(sp, fields)
+		lt, err := solveLevels(sp, fields, unit)
 		if err != nil {
 			return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
 		}
@@ -156,8 +156,8 @@ func looksLikeConfig(path string) bool {
 }
 
 // parseFieldGrid reads "START:STOP:N UNIT", "a,b,c UNIT" or "x UNIT" into
-// fields in gauss.
-func parseFieldGrid(s string) ([]float64, error) {
+// fields in gauss, and returns the unit as written, for display.
+func parseFieldGrid(s string) ([]float64, string, error) {
 	bad := func(f string, a ...any) error {
 		return usagef("--field %q: %s; write e.g. \"0:100:21 mG\" (21 fields from 0 to 100 mG), \"0,10,50 mG\" or \"25 mG\" (units: %s)",
 			s, fmt.Sprintf(f, a...), units.Allowed(units.Field))
@@ -165,11 +165,11 @@ func parseFieldGrid(s string) ([]float64, error) {
 	t := strings.TrimSpace(s)
 	i := strings.LastIndexAny(t, "0123456789.")
 	if i < 0 {
-		return nil, bad("no numbers")
+		return nil, "", bad("no numbers")
 	}
 	nums, unit := strings.TrimSpace(t[:i+1]), strings.TrimSpace(t[i+1:])
 	if unit == "" {
-		return nil, bad("no unit")
+		return nil, "", bad("no unit")
 	}
 	one := func(x string) (float64, error) {
 		v, err := units.Parse(strings.TrimSpace(x)+" "+unit, units.Field)
@@ -183,22 +183,22 @@ func parseFieldGrid(s string) ([]float64, error) {
 	case strings.Contains(nums, ":"):
 		p := strings.Split(nums, ":")
 		if len(p) != 3 {
-			return nil, bad("a range needs START:STOP:N")
+			return nil, "", bad("a range needs START:STOP:N")
 		}
 		a, err := one(p[0])
 		if err != nil {
-			return nil, err
+			return nil, "", err
 		}
 		b, err := one(p[1])
 		if err != nil {
-			return nil, err
+			return nil, "", err
 		}
 		n, err := strconv.Atoi(strings.TrimSpace(p[2]))
 		if err != nil || n < 1 || n > 10000 {
-			return nil, bad("N must be an integer from 1 to 10000")
+			return nil, "", bad("N must be an integer from 1 to 10000")
 		}
 		if n == 1 && a != b {
-			return nil, bad("N = 1 needs START = STOP")
+			return nil, "", bad("N = 1 needs START = STOP")
 		}
 		for k := 0; k < n; k++ {
 			x := a
@@ -211,17 +211,17 @@ func parseFieldGrid(s string) ([]float64, error) {
 		for _, x := range strings.Split(nums, ",") {
 			v, err := one(x)
 			if err != nil {
-				return nil, err
+				return nil, "", err
 			}
 			out = append(out, v)
 		}
 	}
 	for _, b := range out {
 		if math.Abs(b) > 1e6 {
-			return nil, bad("fields beyond 1e6 G are outside the level solver's range")
+			return nil, "", bad("fields beyond 1e6 G are outside the level solver's range")
 		}
 	}
-	return out, nil
+	return out, unit, nil
 }
 
 // levelTables holds what "levels" prints, in display units.
@@ -229,6 +229,7 @@ type levelTables struct {
 	sp     *levels.Species
 	comps  []levels.Component
 	fields []float64 // gauss
+	unit   string    // field unit for display, as the user wrote it
 	states [][2][]stateRow
 	lines  [][]lineRow
 }
@@ -247,7 +248,7 @@ type lineRow struct {
 	offsetKHz, streng float64
 }
 
-func solveLevels(sp *levels.Species, fields []float64) (*levelTables, error) {
+func solveLevels(sp *levels.Species, fields []float64, unit string) (*levelTables, error) {
 	comps, err := levels.Components(sp)
 	if err != nil {
 		return nil, err
@@ -256,11 +257,11 @@ func solveLevels(sp *levels.Species, fields []float64) (*levelTables, error) {
 	if err != nil {
 		return nil, err
 	}
-	lt := &levelTables{sp: sp, comps: comps, fields: fields}
+	lt := &levelTables{sp: sp, comps: comps, fields: fields, unit: unit}
 	var tr levels.Transition
 	for _, b := range fields {
 		if err := ts.Solve(b, &tr); err != nil {
-			return nil, fmt.Errorf("at %s: %w", units.Format(b, units.Field, "mG"), err)
+			return nil, fmt.Errorf("at %s: %w", fieldText(b, unit), err)
 		}
 		var st [2][]stateRow
 		mults := [2][]levels.Multiplet{ts.Upper().Multiplets(), ts.Lower().Multiplets()}
@@ -333,6 +334,14 @@ func half(x float64) string {
 	return strconv.Itoa(t) + "/2"
 }
 
+// fieldText writes a field (gauss) in the unit the user gave, with ten
+// significant digits so that grid steps such as 0.1 print without
+// round-off tails.
+func fieldText(b float64, unit string) string {
+	r, _ := strconv.ParseFloat(strconv.FormatFloat(units.In(b, units.Field, unit), 'g', 10, 64), 64)
+	return strconv.FormatFloat(r, 'g', -1, 64) + " " + unit
+}
+
 func linearUpTo(g float64) string {
 	if math.IsInf(g, 1) {
 		return "inf"
@@ -355,7 +364,7 @@ func (lt *levelTables) writeTable(w io.Writer, name string) {
 	tw.Flush()
 	fmt.Fprintf(w, "(linear up to: field below which the splitting stays linear in B within 1 %%; inf = no hyperfine decoupling found up to 1e6 G)\n")
 	for i, b := range lt.fields {
-		fmt.Fprintf(w, "\nField B = %s\n", units.Format(b, units.Field, "mG"))
+		fmt.Fprintf(w, "\nField B = %s\n", fieldText(b, lt.unit))
 		for k, lev := range []string{"upper", "lower"} {
 			fmt.Fprintf(w, "  %s level states:\n", lev)
 			tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
@@ -435,7 +444,7 @@ func (lt *levelTables) plot(file string) ([]string, error) {
 	}
 	x := make([]float64, len(lt.fields))
 	for i, b := range lt.fields {
-		x[i] = units.In(b, units.Field, "mG")
+		x[i] = units.In(b, units.Field, lt.unit)
 	}
 	var panels [2][]figures.Curve
 	var relative [2]bool
@@ -450,26 +459,52 @@ func (lt *levelTables) plot(file string) ([]string, error) {
 			}
 		}
 		relative[k] = hi-lo > 10*shift && shift > 0
+		// M is conserved along the field, so states of one M block never
+		// cross (the non-crossing rule of von Neumann & Wigner 1929): the
+		// r-th state of a block by energy is one smooth curve. It carries
+		// the labels of that state at the weakest field, where F (and
+		// F1) are good quantum numbers; following the solver's labels
+		// instead would jump between curves at avoided crossings.
 		type track struct {
-			F, F1 float64
-			y     []float64
+			F, F1, zero float64
+			y           []float64
 		}
-		var order []int
-		tracks := map[int]*track{}
-		for i := range lt.fields {
+		byField := make([]int, len(lt.fields))
+		for i := range byField {
+			byField[i] = i
+		}
+		sort.SliceStable(byField, func(a, b int) bool { return math.Abs(lt.fields[byField[a]]) < math.Abs(lt.fields[byField[b]]) })
+		var order [][2]int
+		tracks := map[[2]int]*track{}
+		for _, i := range byField {
+			blocks := map[int][]stateRow{}
 			for _, s := range lt.states[i][k] {
-				t, ok := tracks[s.key]
-				if !ok {
-					t = &track{F: s.F, F1: s.F1, y: nanSlice(len(lt.fields))}
-					tracks[s.key] = t
-					order = append(order, s.key)
-				}
-				t.y[i] = s.energyKHz
-				if relative[k] {
-					t.y[i] -= s.zeroKHz
+				m := int(math.Round(2 * s.M))
+				blocks[m] = append(blocks[m], s)
+			}
+			for m, st := range blocks {
+				sort.SliceStable(st, func(a, b int) bool { return st[a].energyKHz < st[b].energyKHz })
+				for r, s := range st {
+					key := [2]int{m, r}
+					t, ok := tracks[key]
+					if !ok {
+						t = &track{F: s.F, F1: s.F1, zero: s.zeroKHz, y: nanSlice(len(lt.fields))}
+						tracks[key] = t
+						order = append(order, key)
+					}
+					t.y[i] = s.energyKHz
+					if relative[k] {
+						t.y[i] -= t.zero
+					}
 				}
 			}
 		}
+		sort.Slice(order, func(a, b int) bool {
+			if order[a][0] != order[b][0] {
+				return order[a][0] < order[b][0]
+			}
+			return order[a][1] < order[b][1]
+		})
 		var fs []float64
 		for _, key := range order {
 			fs = appendUnique(fs, tracks[key].F*1000+tracks[key].F1)
@@ -489,9 +524,12 @@ func (lt *levelTables) plot(file string) ([]string, error) {
 			}
 			panels[k] = append(panels[k], c)
 		}
+		// Legend entries in order of F.
+		sort.SliceStable(panels[k], func(a, b int) bool { return panels[k][a].Style < panels[k][b].Style })
 	}
 	title := lt.sp.Name + ": Zeeman diagram"
 	fig := figures.Zeeman(title, panels[0], panels[1])
+	fig.XLabel = "field strength B (" + lt.unit + ")"
 	for k, rel := range relative {
 		if rel {
 			fig.Panels[k].YLabel = []string{"upper", "lower"}[k] + " ΔE/h (kHz)"

@@ -13,6 +13,7 @@ import (
 	"os"
 	"os/signal"
 	"runtime"
+	"runtime/debug"
 	"strings"
 	"syscall"
 
@@ -42,7 +43,7 @@ type command struct {
 
 func commands() []command {
 	return []command{
-		{"run", "CONFIG [--workers N] [--resume] [--shard K/N] [--out DIR]", "run the parameter study of a config file", cmdRun},
+		{"run", "CONFIG [--workers N] [--resume] [--shard K/N] [--out DIR] [--no-plots]", "run the parameter study of a config file", cmdRun},
 		{"levels", "SPECIES_OR_CONFIG [--field \"0:100:21 mG\"] [--format table|csv] [--plot FILE]", "print Zeeman levels, transitions and hyperfine components", cmdLevels},
 		{"plot", "RUNDIR [--format png,svg]", "redraw the figures of a run directory from its tables", cmdPlot},
 		{"merge", "DST SRC... [--format png,svg] [--no-plots]", "join shard run directories into one", cmdMerge},
@@ -67,6 +68,23 @@ func usage(w io.Writer) {
 
 // run is the whole command; main only wires it to the process.
 func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	return guard(stderr, func() int { return dispatch(ctx, args, stdout, stderr) })
+}
+
+// guard runs a command. A panic in it is a bug, not bad input: it is
+// reported as an internal error with exit status 1 (Go's own exit status
+// for a panic, 2, would read as bad input).
+func guard(stderr io.Writer, f func() int) (code int) {
+	defer func() {
+		if p := recover(); p != nil {
+			fmt.Fprintf(stderr, "maserpol: internal error: %v\n%s\nmaserpol: this is a bug; please report it with the command line and config\n", p, debug.Stack())
+			code = exitFailure
+		}
+	}()
+	return f()
+}
+
+func dispatch(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if len(args) == 0 {
 		usage(stderr)
 		return exitInput
@@ -98,10 +116,27 @@ func newFlags(name, args, summary string, stderr io.Writer) *flag.FlagSet {
 		fs.VisitAll(func(*flag.Flag) { n++ })
 		if n > 0 {
 			fmt.Fprintf(stderr, "\nFlags (they may follow the arguments):\n")
-			fs.PrintDefaults()
+			printFlags(stderr, fs)
 		}
 	}
 	return fs
+}
+
+// printFlags lists the flags as the usage lines write them, with two
+// dashes (the flag package accepts one or two; its own listing uses one).
+func printFlags(w io.Writer, fs *flag.FlagSet) {
+	fs.VisitAll(func(f *flag.Flag) {
+		name, usage := flag.UnquoteUsage(f)
+		line := "  --" + f.Name
+		if name != "" {
+			line += " " + name
+		}
+		line += "\n    \t" + strings.ReplaceAll(usage, "\n", "\n    \t")
+		if f.DefValue != "" && f.DefValue != "0" && f.DefValue != "false" {
+			line += fmt.Sprintf(" (default %q)", f.DefValue)
+		}
+		fmt.Fprintln(w, line)
+	})
 }
 
 func flagsFor(name string, stderr io.Writer) *flag.FlagSet {
@@ -180,7 +215,15 @@ func cmdVersion(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		fs.Usage()
 		return exitInput
 	}
-	fmt.Fprintf(stdout, "maserpol %s (%s, %s/%s)\n", runs.Version, runtime.Version(), runtime.GOOS, runtime.GOARCH)
+	build := ""
+	if rev, mod := runs.Revision(); rev != "" {
+		build = "revision " + rev
+		if mod {
+			build += " with local modifications"
+		}
+		build += ", "
+	}
+	fmt.Fprintf(stdout, "maserpol %s (%s%s, %s/%s)\n", runs.Version, build, runtime.Version(), runtime.GOOS, runtime.GOARCH)
 	return exitOK
 }
 

@@ -332,7 +332,7 @@ func TestLevels(t *testing.T) {
 		t.Errorf("row counts %v", n)
 	}
 	code, out, _ = maserpol(t, "levels", "hcn-like-j1-0", "--field", "10 G")
-	if code != 0 || !strings.Contains(out, "offset (kHz)") || !strings.Contains(out, "Field B = 10000 mG") {
+	if code != 0 || !strings.Contains(out, "offset (kHz)") || !strings.Contains(out, "Field B = 10 G") {
 		t.Errorf("table output (exit %d):\n%s", code, out)
 	}
 	png := filepath.Join(t.TempDir(), "zeeman.png")
@@ -395,6 +395,10 @@ func TestDemo(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("demo: exit %d\n%s\n%s", code, stdout, e)
 	}
+	// The README points at this figure (the 3 G SiO models).
+	if _, err := os.Stat(filepath.Join(out, "irc-vela-7-sio", "plots", "saturation_B3G.png")); err != nil {
+		t.Error(err)
+	}
 	for _, name := range []string{"irc-vela-7-sio", "hydra-w4-water"} {
 		d := filepath.Join(out, name)
 		sum, err := ecsv.ReadFile(filepath.Join(d, "summary.csv"))
@@ -407,6 +411,21 @@ func TestDemo(t *testing.T) {
 		ml, err := sum.Floats("ml")
 		if err != nil {
 			t.Fatal(err)
+		}
+		// The demo shows the model where it holds: most checkpoints lie
+		// inside R/gOmega <= 0.1.
+		valid, err := sum.Bools("valid")
+		if err != nil {
+			t.Fatal(err)
+		}
+		n := 0
+		for _, v := range valid {
+			if v {
+				n++
+			}
+		}
+		if n < len(valid)*9/10 {
+			t.Errorf("%s: only %d of %d checkpoints valid", name, n, len(valid))
 		}
 		for _, x := range ml {
 			if x < 0 || x > 1 {
@@ -421,6 +440,9 @@ func TestDemo(t *testing.T) {
 		}
 		if !strings.Contains(stdout, d) {
 			t.Errorf("demo output does not say where it wrote %s", name)
+		}
+		if strings.Count(stdout, "validity: ") != 2 {
+			t.Errorf("demo output lacks a validity line per study:\n%s", stdout)
 		}
 		// The copied config runs as a normal config.
 		if _, err := os.Stat(filepath.Join(out, name+".toml")); err != nil {

@@ -15,7 +15,7 @@ import (
 
 func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("run", stderr)
-	workers := fs.Int("workers", 0, "number of models computed at once (default: the number of CPUs); results do not depend on it")
+	workers := fs.Int("workers", 0, "number of models computed at once; 0 = one per CPU core (the default); results do not depend on it")
 	resume := fs.Bool("resume", false, "continue an interrupted run in its directory; refuses if the config changed")
 	shard := fs.String("shard", "", "run only shard `K/N`: the models with index % N == K-1 (K = 1..N, like a job-array task index)")
 	out := fs.String("out", "", "run `directory` (default: output.dir of the config)")
@@ -29,7 +29,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return exitInput
 	}
 	if *workers < 0 {
-		return report(stderr, usagef("--workers must be >= 1 (got %d)", *workers))
+		return report(stderr, usagef("--workers must be >= 0 (0 = one per CPU core; got %d)", *workers))
 	}
 	var sh runs.Shard
 	if *shard != "" {
@@ -70,16 +70,24 @@ func runStudy(ctx context.Context, st *config.Study, dir string, opt runs.Option
 		for _, f := range rep.Failures {
 			fmt.Fprintf(stderr, "maserpol: model failed: %s\n", f)
 		}
+		for _, n := range rep.Notes {
+			fmt.Fprintf(stderr, "maserpol: note: %s\n", n)
+		}
 		printReport(stdout, rep)
 	}
 	if err != nil {
 		if errors.Is(err, context.Canceled) {
 			return exitFailure
 		}
+		var pe *runs.PlotError
+		if errors.As(err, &pe) {
+			fmt.Fprintf(stderr, "maserpol: %v\nmaserpol: the tables and manifest.json are complete; redraw the figures with: maserpol plot %s\n", err, dir)
+			return exitFailure
+		}
 		return report(stderr, err)
 	}
 	if rep.Failed > 0 {
-		fmt.Fprintf(stderr, "maserpol: %d of %d models failed (see manifest.json); maserpol run --resume retries them\n", rep.Failed, rep.InShard)
+		fmt.Fprintf(stderr, "maserpol: %d of %s failed (see manifest.json); maserpol run --resume retries them\n", rep.Failed, plural(rep.InShard, "model", "models"))
 		return exitFailure
 	}
 	return exitOK
@@ -95,9 +103,18 @@ func printReport(w io.Writer, rep *runs.Report) {
 	fmt.Fprintf(w, "  summary:  %s (ECSV, one row per model and checkpoint)\n", rep.Summary)
 	fmt.Fprintf(w, "  spectra:  %s (ECSV, one table per model)\n", filepath.Join(rep.Dir, "spectra"))
 	fmt.Fprintf(w, "  manifest: %s\n", rep.Manifest)
+	if v := rep.Validity; v.Checkpoints > 0 {
+		fmt.Fprintf(w, "  validity: %s\n", validityLine(v))
+	}
 	if len(rep.Figures) > 0 {
 		fmt.Fprintf(w, "  figures:  %d files in %s (%s)\n", len(rep.Figures), filepath.Join(rep.Dir, "plots"), figureKinds(rep.Figures))
 	}
+}
+
+// validityLine says how much of a study lies inside the populations-only
+// regime.
+func validityLine(v runs.ValidityStats) string {
+	return fmt.Sprintf("%d of %d checkpoints within R/gOmega <= %g (max R/gOmega = %.3g)", v.Valid, v.Checkpoints, runs.ValidLimit, v.MaxRoverGOmega)
 }
 
 // figureKinds lists the distinct figure names without model prefixes.
@@ -137,7 +154,7 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return report(stderr, err)
 	}
-	figs, err := runs.Plot(dir, fm)
+	figs, err := runs.Plot(dir, fm, noteTo(stderr))
 	if err != nil {
 		return report(stderr, err)
 	}
@@ -175,14 +192,25 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	fmt.Fprintf(stdout, "run directory: %s\n  models: %d done, %d failed, %d pending of %d\n  summary:  %s\n",
 		pos[0], done, failed, pending, len(man.Models), filepath.Join(pos[0], "summary.csv"))
 	if pending > 0 {
-		fmt.Fprintf(stderr, "maserpol: warning: %d models are in none of the sources (a shard missing?)\n", pending)
+		// A partial merge is not a result: say what is missing and how to
+		// finish, and draw no figures of half a study.
+		var missing []string
+		for _, m := range man.Models {
+			if m.Status == runs.StatusPending {
+				missing = append(missing, m.Name)
+			}
+		}
+		fmt.Fprintf(stderr, "maserpol: merge incomplete: %s in none of the sources (%s); is a shard missing?\n"+
+			"maserpol: merge the missing shard too, or compute the rest in the merged directory with:\n  maserpol run CONFIG --resume --out %s\n",
+			plural(pending, "model is", "models are"), listNames(missing), pos[0])
+		return exitFailure
 	}
 	fm, plots, err := figureFormats(*formats, pos[0])
 	if err != nil {
 		return report(stderr, err)
 	}
 	if plots && !*noPlots && done > 0 {
-		figs, err := runs.Plot(pos[0], fm)
+		figs, err := runs.Plot(pos[0], fm, noteTo(stderr))
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -213,4 +241,25 @@ func printWarnings(w io.Writer, ws []runs.Warning) {
 		}
 		fmt.Fprintf(w, "maserpol: warning: %s: %s\n", who, msg)
 	}
+}
+
+// noteTo prints notes about skipped figures.
+func noteTo(w io.Writer) func(string) {
+	return func(n string) { fmt.Fprintf(w, "maserpol: note: %s\n", n) }
+}
+
+// plural writes "1 model is" or "3 models are".
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return "1 " + one
+	}
+	return fmt.Sprintf("%d %s", n, many)
+}
+
+// listNames lists names, shortened in the middle when long.
+func listNames(ns []string) string {
+	if len(ns) > 8 {
+		return fmt.Sprintf("%s ... %s", strings.Join(ns[:4], ", "), strings.Join(ns[len(ns)-2:], ", "))
+	}
+	return strings.Join(ns, ", ")
 }

@@ -1,7 +1,11 @@
 // Package figures draws the figures of maserpol with gonum/plot: stacked
 // panels that share their horizontal axis, sized for a journal column
 // (3.5 in wide) with fonts that stay readable at that size, axis labels
-// with units, and legends.
+// with units, and legends in rows of their own above each panel (never on
+// the data), capped at six entries plus "+N more". Linear axes are ticked
+// at fixed steps of 1, 2 or 5 times a power of ten; a panel of round-off
+// (e.g. V at theta = 90 deg) is drawn as zero with a note; a figure with
+// nothing to draw is reported as ErrNoData, and drawing never panics.
 //
 // The package knows nothing about run directories or physics; callers
 // pass curves in display units. Lines differ in colour and in dash

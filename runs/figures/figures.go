@@ -1,6 +1,7 @@
 package figures
 
 import (
+	"errors"
 	"fmt"
 	"image/color"
 	"math"
@@ -12,6 +13,7 @@ import (
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/plotutil"
+	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgeps"
@@ -30,7 +32,12 @@ const (
 	tickSize   = 7
 	legendSize = 6.5
 	titleSize  = 8
+	noteSize   = 6.5
 )
+
+// DefaultMaxLegend is the most legend entries a panel shows; the rest are
+// summarised as "+N more" (a longer legend is no longer read).
+const DefaultMaxLegend = 6
 
 // DPI of PNG output.
 const DPI = 300
@@ -38,27 +45,70 @@ const DPI = 300
 // Formats lists the file formats Save writes.
 var Formats = []string{"png", "svg", "pdf", "eps"}
 
+// ErrNoData is returned by Save for a figure with nothing to draw; callers
+// typically skip such a figure with a note.
+var ErrNoData = errors.New("nothing to draw")
+
 // Curve is one line of a panel, in display units.
 type Curve struct {
 	Label  string // legend text; "" = no legend entry
 	X, Y   []float64
 	Style  int  // colour and dash index; curves with the same Style look alike
 	Points bool // draw markers as well as the line
+	// BreakAbove, when > 0, leaves out the line between neighbouring
+	// points whose y values differ by more than it (an EVPA that flips by
+	// 90 deg is not a smooth change); markers still show every point.
+	BreakAbove float64
 }
 
 // Panel is one plot of a stack.
 type Panel struct {
 	YLabel string // with unit, e.g. "I (K)"
 	Curves []Curve
+	// Legend draws a legend for the labelled curves. Legends sit in a row
+	// above the panel, outside the data area, in as many columns as fit.
 	Legend bool
-	// LegendLeft puts the legend top left instead of top right.
+	// LegendLeft is kept for callers of an earlier layout; legends are
+	// now always outside the data area, so it has no effect.
 	LegendLeft bool
-	LogY       bool
+	// LegendTitle is written before the legend entries, e.g. "F1, F =".
+	LegendTitle string
+	// MaxLegend caps the legend entries (0 = DefaultMaxLegend).
+	MaxLegend int
+	LogY      bool
 	// Solid draws every curve solid (colour alone tells them apart), for
 	// dense diagrams.
 	Solid bool
 	// ZeroLine draws a thin horizontal line at y = 0 (for Q, U, V).
 	ZeroLine bool
+	// Note is one line of text in the top left corner of the data area.
+	Note string
+	// Zeroed marks a panel whose values were set to zero because they are
+	// round-off (see ZeroRoundoff): its axis shows only the tick at 0.
+	Zeroed bool
+}
+
+// ZeroRoundoff sets every y value of the panel to zero and notes why when
+// all of them are below tol in magnitude (e.g. V at theta = 90 deg, where
+// the model gives V = 0 up to round-off); tick labels such as 6.9e-19
+// would suggest a signal. It reports whether it did.
+func ZeroRoundoff(pn *Panel, tol float64, note string) bool {
+	if len(pn.Curves) == 0 {
+		return false
+	}
+	for _, c := range pn.Curves {
+		for _, y := range c.Y {
+			if !(math.Abs(y) <= tol) {
+				return false
+			}
+		}
+	}
+	for i := range pn.Curves {
+		c := &pn.Curves[i]
+		c.Y = make([]float64, len(c.Y))
+	}
+	pn.Zeroed, pn.Note = true, note
+	return true
 }
 
 // Stack is a figure of panels stacked vertically, sharing the x axis.
@@ -73,21 +123,23 @@ type Stack struct {
 
 // Save draws the stack and writes base.<format> for each format; it
 // returns the paths written. Each file is written to a temporary name in
-// the same directory and renamed, so a crash leaves no partial figure.
-func (s *Stack) Save(base string, formats []string) ([]string, error) {
-	plots, err := s.plots()
+// the same directory and renamed, so a crash leaves no partial figure. A
+// figure without finite data returns an error wrapping ErrNoData.
+func (s *Stack) Save(base string, formats []string) (out []string, err error) {
+	// gonum/plot panics on some degenerate inputs; a figure must never
+	// take the program down, so a panic becomes an error.
+	defer func() {
+		if p := recover(); p != nil {
+			err = fmt.Errorf("%s: drawing the figure failed: %v", base, p)
+		}
+	}()
+	fig, err := s.layout()
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", base, err)
 	}
-	h := s.PanelHeight
-	if h == 0 {
-		h = 1.1 * vg.Inch
-	}
-	height := h*vg.Length(len(plots)) + 0.35*vg.Inch
-	var out []string
 	for _, f := range formats {
 		path := base + "." + f
-		if err := write(path, f, ColumnWidth, height, plots); err != nil {
+		if err := write(path, f, fig); err != nil {
 			return out, err
 		}
 		out = append(out, path)
@@ -95,7 +147,29 @@ func (s *Stack) Save(base string, formats []string) ([]string, error) {
 	return out, nil
 }
 
-func (s *Stack) plots() ([]*plot.Plot, error) {
+// legendEntry is one legend item: text and the thumbnails that show the
+// curve's style (none for a text-only item such as "+3 more").
+type legendEntry struct {
+	text   string
+	thumbs []plot.Thumbnailer
+}
+
+// panelDrawing is a panel ready to draw.
+type panelDrawing struct {
+	p      *plot.Plot
+	legend []legendEntry
+	note   string
+}
+
+// figure is a stack ready to draw at a given size.
+type figure struct {
+	title  string
+	panels []panelDrawing
+	w, h   vg.Length
+	panelH vg.Length
+}
+
+func (s *Stack) layout() (*figure, error) {
 	if len(s.Panels) == 0 {
 		return nil, fmt.Errorf("figure has no panels")
 	}
@@ -113,106 +187,262 @@ func (s *Stack) plots() ([]*plot.Plot, error) {
 		}
 	}
 	if xmin > xmax {
-		return nil, fmt.Errorf("figure %q has no finite data", s.Title)
+		return nil, fmt.Errorf("figure %q: %w (no finite data)", firstLine(s.Title), ErrNoData)
 	}
-	if xmin == xmax {
-		xmin, xmax = xmin-0.5, xmax+0.5
-		if s.LogX {
-			xmin, xmax = xmin/2, xmax*2
-		}
+	xmin, xmax = widen(xmin, xmax, s.LogX)
+	if s.LogX {
+		xmin, xmax = snapDecades(xmin, xmax)
 	}
-	plots := make([]*plot.Plot, len(s.Panels))
+	h := s.PanelHeight
+	if h == 0 {
+		h = 1.1 * vg.Inch
+	}
+	fig := &figure{title: s.Title, w: ColumnWidth, panelH: h}
 	for i, pn := range s.Panels {
 		p := plot.New()
 		style(p)
-		if i == 0 && s.Title != "" {
-			p.Title.Text = s.Title
-		}
 		p.Y.Label.Text = pn.YLabel
-		p.Legend.Left = pn.LegendLeft
 		p.X.Min, p.X.Max = xmin, xmax
-		p.X.Tick.Marker, p.Y.Tick.Marker = niceTicks{}, niceTicks{}
+		p.X.Tick.Marker, p.Y.Tick.Marker = stepTicks{maxLabels: 7}, stepTicks{maxLabels: 6}
 		if s.LogX {
 			p.X.Scale = plot.LogScale{}
 			p.X.Tick.Marker = plot.LogTicks{Prec: -1}
-		}
-		if pn.LogY {
-			p.Y.Scale = plot.LogScale{}
-			p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
 		}
 		if i == len(s.Panels)-1 {
 			p.X.Label.Text = s.XLabel
 		} else {
 			p.X.Tick.Marker = unlabelled{p.X.Tick.Marker}
 		}
-		if pn.ZeroLine {
+		if pn.ZeroLine || pn.Zeroed {
 			z := plotter.NewFunction(func(float64) float64 { return 0 })
 			z.Color = color.Gray{Y: 160}
 			z.Width = vg.Points(0.4)
 			p.Add(z)
 		}
+		pd := panelDrawing{p: p, note: pn.Note}
+		// Very large or small values are drawn in units of a power of
+		// ten named in the axis label, so that ticks read 2, 4, 6.
+		yscale := 1.0
+		if e := powerOfTen(pn, s.LogX); e != 0 {
+			yscale = math.Pow(10, float64(-e))
+			p.Y.Label.Text = scaledLabel(pn.YLabel, e)
+		}
+		ymin, ymax := math.Inf(1), math.Inf(-1)
 		for _, c := range pn.Curves {
 			xy := make(plotter.XYs, 0, len(c.X))
 			for k := range c.X {
 				if usable(c.X[k], s.LogX) && usable(c.Y[k], pn.LogY) {
-					xy = append(xy, plotter.XY{X: c.X[k], Y: c.Y[k]})
+					y := c.Y[k] * yscale
+					xy = append(xy, plotter.XY{X: c.X[k], Y: y})
+					ymin, ymax = math.Min(ymin, y), math.Max(ymax, y)
 				}
 			}
 			if len(xy) == 0 {
 				continue
 			}
-			l, err := plotter.NewLine(xy)
+			thumbs, err := addCurve(p, c, xy, pn.Solid)
 			if err != nil {
 				return nil, err
 			}
-			l.Color = plotutil.Color(c.Style)
-			if !pn.Solid {
-				l.Dashes = plotutil.Dashes(c.Style)
-			}
-			l.Width = vg.Points(0.9)
-			if pn.Solid {
-				l.Width = vg.Points(0.6)
-			}
-			p.Add(l)
-			var thumb plot.Thumbnailer = l
-			if c.Points {
-				sc, err := plotter.NewScatter(xy)
-				if err != nil {
-					return nil, err
-				}
-				sc.Color = l.Color
-				sc.Shape = plotutil.Shape(c.Style)
-				sc.Radius = vg.Points(1.6)
-				p.Add(sc)
-				if pn.Legend && c.Label != "" {
-					p.Legend.Add(c.Label, l, sc)
-				}
-				continue
-			}
 			if pn.Legend && c.Label != "" {
-				p.Legend.Add(c.Label, thumb)
+				pd.legend = append(pd.legend, legendEntry{c.Label, thumbs})
 			}
 		}
-		plots[i] = p
+		switch {
+		case pn.Zeroed:
+			p.Y.Min, p.Y.Max = -1, 1
+			p.Y.Tick.Marker = zeroTick{}
+		case pn.LogY:
+			p.Y.Scale = plot.LogScale{}
+			p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
+			if ymin > ymax { // nothing positive: an empty decade
+				ymin, ymax = 1, 10
+				if pd.note == "" {
+					pd.note = "no positive values"
+				}
+			}
+			// Fix the range so that a single value never collapses the
+			// log axis onto zero.
+			p.Y.Min, p.Y.Max = widen(ymin, ymax, true)
+		}
+		pd.legend = capLegend(pd.legend, pn.MaxLegend)
+		if pn.LegendTitle != "" && len(pd.legend) > 0 {
+			pd.legend = append([]legendEntry{{text: pn.LegendTitle}}, pd.legend...)
+		}
+		fig.panels = append(fig.panels, pd)
 	}
-	return plots, nil
+	fig.h = h*vg.Length(len(fig.panels)) + 0.35*vg.Inch + fig.titleHeight()
+	for _, pd := range fig.panels {
+		fig.h += fig.legendHeight(pd.legend)
+	}
+	return fig, nil
+}
+
+// powerOfTen returns the exponent e of the unit 10^e in which a linear
+// panel is drawn: 0 unless its largest |y| is 1e4 or more, or below 1e-2.
+func powerOfTen(pn Panel, logX bool) int {
+	if pn.LogY || pn.Zeroed {
+		return 0
+	}
+	m := 0.0
+	for _, c := range pn.Curves {
+		for k, y := range c.Y {
+			if k < len(c.X) && usable(c.X[k], logX) && usable(y, false) {
+				m = math.Max(m, math.Abs(y))
+			}
+		}
+	}
+	if m == 0 || m >= 1e-2 && m < 1e4 {
+		return 0
+	}
+	return int(math.Floor(math.Log10(m)))
+}
+
+// scaledLabel puts the power of ten into an axis label: "I (K)" becomes
+// "I (10^8 K)", "m_l" becomes "m_l (10^-5)". (The default font lacks
+// superscript 0, 9 and minus, so the exponent is written with a caret.)
+func scaledLabel(label string, e int) string {
+	p := "10^" + strconv.Itoa(e)
+	if i := strings.LastIndex(label, "("); i >= 0 && strings.HasSuffix(label, ")") {
+		return label[:i+1] + p + " " + label[i+1:]
+	}
+	return label + " (" + p + ")"
+}
+
+// addCurve adds the line (and markers) of one curve and returns the
+// thumbnails for its legend entry. A curve with fewer than two points is
+// drawn as a marker: a line needs two.
+func addCurve(p *plot.Plot, c Curve, xy plotter.XYs, solid bool) ([]plot.Thumbnailer, error) {
+	col := Color(c.Style)
+	var thumbs []plot.Thumbnailer
+	markers := c.Points
+	for _, seg := range segments(xy, c.BreakAbove) {
+		if len(seg) < 2 {
+			markers = true
+			continue
+		}
+		l, err := plotter.NewLine(seg)
+		if err != nil {
+			return nil, err
+		}
+		l.Color = col
+		l.Width = vg.Points(0.9)
+		if solid {
+			l.Width = vg.Points(0.6)
+		} else {
+			l.Dashes = plotutil.Dashes(c.Style)
+		}
+		p.Add(l)
+		if len(thumbs) == 0 {
+			thumbs = append(thumbs, l)
+		}
+	}
+	if markers {
+		sc, err := plotter.NewScatter(xy)
+		if err != nil {
+			return nil, err
+		}
+		sc.Color = col
+		sc.Shape = plotutil.Shape(c.Style)
+		sc.Radius = vg.Points(1.6)
+		p.Add(sc)
+		thumbs = append(thumbs, sc)
+	}
+	return thumbs, nil
+}
+
+// segments splits a curve where y jumps by more than breakAbove (> 0).
+func segments(xy plotter.XYs, breakAbove float64) []plotter.XYs {
+	if breakAbove <= 0 {
+		return []plotter.XYs{xy}
+	}
+	var segs []plotter.XYs
+	from := 0
+	for k := 1; k <= len(xy); k++ {
+		if k == len(xy) || math.Abs(xy[k].Y-xy[k-1].Y) > breakAbove {
+			segs = append(segs, xy[from:k])
+			from = k
+		}
+	}
+	return segs
+}
+
+// capLegend keeps the first max entries and summarises the rest.
+func capLegend(es []legendEntry, max int) []legendEntry {
+	if max <= 0 {
+		max = DefaultMaxLegend
+	}
+	if len(es) <= max {
+		return es
+	}
+	n := len(es) - max
+	return append(es[:max:max], legendEntry{text: "+" + strconv.Itoa(n) + " more"})
+}
+
+// widen makes a range of positive length; on a log axis it stays positive.
+func widen(lo, hi float64, log bool) (float64, float64) {
+	if lo < hi {
+		return lo, hi
+	}
+	if log {
+		return lo / 2, hi * 2
+	}
+	d := math.Abs(lo) * 0.1
+	if d == 0 {
+		d = 0.5
+	}
+	return lo - d, hi + d
+}
+
+// snapDecades moves the ends of a log range onto a power of ten within 3 %
+// (a column grown to R/Gamma = 99.98 reads as ending at 100, labelled).
+func snapDecades(lo, hi float64) (float64, float64) {
+	if d := math.Pow(10, math.Floor(math.Log10(lo))); lo < d*1.03 {
+		lo = d
+	}
+	if d := math.Pow(10, math.Ceil(math.Log10(hi))); hi > d/1.03 {
+		hi = d
+	}
+	return lo, hi
 }
 
 func usable(x float64, log bool) bool {
 	return !math.IsNaN(x) && !math.IsInf(x, 0) && (!log || x > 0)
 }
 
+func firstLine(s string) string {
+	a, _, _ := strings.Cut(s, "\n")
+	return a
+}
+
+// palette is the Okabe & Ito (2008) colour-blind-safe set, without its
+// yellow (too pale on white), extended by three distinct darker tones for
+// dense diagrams.
+var palette = []color.Color{
+	color.RGBA{0x00, 0x72, 0xb2, 0xff}, // blue
+	color.RGBA{0xd5, 0x5e, 0x00, 0xff}, // vermillion
+	color.RGBA{0x00, 0x9e, 0x73, 0xff}, // bluish green
+	color.RGBA{0xcc, 0x79, 0xa7, 0xff}, // reddish purple
+	color.RGBA{0xe6, 0x9f, 0x00, 0xff}, // orange
+	color.RGBA{0x56, 0xb4, 0xe9, 0xff}, // sky blue
+	color.RGBA{0x00, 0x00, 0x00, 0xff}, // black
+	color.RGBA{0x8c, 0x51, 0x0a, 0xff}, // brown
+	color.RGBA{0x7f, 0x7f, 0x7f, 0xff}, // grey
+	color.RGBA{0x6a, 0x3d, 0x9a, 0xff}, // violet
+}
+
+// Color is the colour of curve style i.
+func Color(i int) color.Color {
+	n := len(palette)
+	return palette[((i%n)+n)%n]
+}
+
 func style(p *plot.Plot) {
-	p.Title.TextStyle.Font.Size = vg.Points(titleSize)
 	for _, a := range []*plot.Axis{&p.X, &p.Y} {
 		a.Label.TextStyle.Font.Size = vg.Points(labelSize)
 		a.Tick.Label.Font.Size = vg.Points(tickSize)
 		a.Padding = vg.Points(2)
 	}
-	p.Legend.TextStyle.Font.Size = vg.Points(legendSize)
-	p.Legend.Top = true
-	p.Legend.ThumbnailWidth = vg.Points(14)
-	p.Legend.Padding = vg.Points(1)
 	g := plotter.NewGrid()
 	g.Vertical.Color = color.Gray{Y: 225}
 	g.Horizontal.Color = color.Gray{Y: 225}
@@ -221,25 +451,90 @@ func style(p *plot.Plot) {
 	p.Add(g)
 }
 
-// niceTicks places ticks like plot.DefaultTicks but labels them with at
-// most four significant digits, and labels a tick at rounding distance
-// from zero as 0.
-type niceTicks struct{}
+// stepTicks puts major ticks at every multiple of a step of 1, 2 or 5
+// times a power of ten (so fractions read 0, 0.1, 0.2 ... and zero is
+// always a tick when in range), with three to six labels, and labels them
+// with the digits the step needs.
+type stepTicks struct {
+	maxLabels int // horizontal axes have room for more labels than vertical ones
+}
 
-func (niceTicks) Ticks(min, max float64) []plot.Tick {
-	t := plot.DefaultTicks{}.Ticks(min, max)
-	for i := range t {
-		if t[i].Label == "" {
-			continue
-		}
-		x := t[i].Value
-		if math.Abs(x) < 1e-9*(max-min) {
+func (t stepTicks) Ticks(min, max float64) []plot.Tick {
+	if !(max > min) || math.IsInf(min, 0) || math.IsInf(max, 0) {
+		return plot.DefaultTicks{}.Ticks(min, max)
+	}
+	step, minor := tickStep(min, max, t.maxLabels)
+	var ts []plot.Tick
+	k0, k1 := math.Ceil(min/minor-1e-9), math.Floor(max/minor+1e-9)
+	per := math.Round(step / minor)
+	for k := k0; k <= k1; k++ {
+		x := k * minor
+		if math.Abs(x) < 1e-9*step {
 			x = 0
 		}
-		t[i].Label = strconv.FormatFloat(x, 'g', 4, 64)
+		tk := plot.Tick{Value: x}
+		if math.Mod(math.Abs(k), per) == 0 {
+			tk.Label = tickLabel(x, step)
+		}
+		ts = append(ts, tk)
 	}
-	return t
+	return ts
 }
+
+// tickStep picks the major step with a label count nearest to five (at
+// most maxLabels, at least three when possible; on a tie the finer step)
+// and the minor step.
+func tickStep(min, max float64, maxLabels int) (step, minor float64) {
+	if maxLabels < 3 {
+		maxLabels = 6
+	}
+	span := max - min
+	e := math.Floor(math.Log10(span))
+	best, bestScore := 0.0, math.Inf(1)
+	for p := e - 2; p <= e+1; p++ {
+		for _, m := range []float64{1, 2, 5} {
+			s := m * math.Pow(10, p)
+			n := math.Floor(max/s+1e-9) - math.Ceil(min/s-1e-9) + 1
+			if n > float64(maxLabels) || n < 2 {
+				continue
+			}
+			score := math.Abs(n - 5)
+			if n < 3 {
+				score += 3
+			}
+			if score < bestScore || score == bestScore && s < best {
+				best, bestScore = s, score
+			}
+		}
+	}
+	if best == 0 {
+		best = math.Pow(10, e)
+	}
+	m := best / math.Pow(10, math.Floor(math.Log10(best)+1e-9))
+	if math.Abs(m-5) < 1e-6 {
+		return best, best / 5
+	}
+	return best, best / 2
+}
+
+func tickLabel(x, step float64) string {
+	if x == 0 {
+		return "0"
+	}
+	ax := math.Abs(x)
+	if ax >= 1e6 || step < 1e-4 {
+		// Enough digits to tell neighbouring ticks apart.
+		d := int(math.Ceil(math.Log10(ax/step)-1e-9)) + 1
+		return strconv.FormatFloat(x, 'g', max(d, 1), 64)
+	}
+	dec := max(0, int(-math.Floor(math.Log10(step)+1e-9)))
+	return strconv.FormatFloat(x, 'f', dec, 64)
+}
+
+// zeroTick labels only y = 0, for panels of values that are zero.
+type zeroTick struct{}
+
+func (zeroTick) Ticks(min, max float64) []plot.Tick { return []plot.Tick{{Value: 0, Label: "0"}} }
 
 // unlabelled keeps the tick positions of an axis but drops their labels,
 // for the upper panels of a stack.
@@ -253,7 +548,86 @@ func (u unlabelled) Ticks(min, max float64) []plot.Tick {
 	return t
 }
 
-func write(path, format string, w, h vg.Length, plots []*plot.Plot) error {
+// textStyle is a plain text style of the given size in the default font.
+func textStyle(size float64) text.Style {
+	p := plot.New()
+	st := p.Legend.TextStyle
+	st.Font.Size = vg.Points(size)
+	st.Color = color.Black
+	return st
+}
+
+const (
+	legendThumb  = 14 // pt, thumbnail width
+	legendGap    = 3  // pt, between thumbnail and text
+	legendColGap = 8  // pt, between columns
+)
+
+// legendWidth is the width available to legends: the figure less a
+// generous allowance for the y axis and the right padding.
+func (f *figure) legendWidth() vg.Length { return f.w - 0.75*vg.Inch }
+
+// legendGrid returns the column count and the column width of a legend.
+func (f *figure) legendGrid(es []legendEntry) (cols int, colW vg.Length) {
+	st := textStyle(legendSize)
+	for _, e := range es {
+		w := st.Width(e.text)
+		if len(e.thumbs) > 0 {
+			w += vg.Points(legendThumb + legendGap)
+		}
+		colW = max(colW, w+vg.Points(legendColGap))
+	}
+	cols = max(1, min(len(es), int(f.legendWidth()/colW)))
+	return cols, colW
+}
+
+func (f *figure) legendHeight(es []legendEntry) vg.Length {
+	if len(es) == 0 {
+		return 0
+	}
+	cols, _ := f.legendGrid(es)
+	rows := (len(es) + cols - 1) / cols
+	return vg.Length(rows)*rowHeight() + vg.Points(3)
+}
+
+func rowHeight() vg.Length { return vg.Points(legendSize * 1.3) }
+
+func (f *figure) titleHeight() vg.Length {
+	if f.title == "" {
+		return 0
+	}
+	n := len(strings.Split(f.title, "\n"))
+	return vg.Points(titleSize*1.25*float64(n) + 3)
+}
+
+// drawLegend draws entries row by row in the rectangle whose top left
+// corner is (x, top).
+func (f *figure) drawLegend(c draw.Canvas, es []legendEntry, x, top vg.Length) {
+	cols, colW := f.legendGrid(es)
+	st := textStyle(legendSize)
+	st.YAlign = text.YCenter
+	rh := rowHeight()
+	for i, e := range es {
+		r, k := i/cols, i%cols
+		x0 := x + vg.Length(k)*colW
+		yc := top - vg.Length(r)*rh - rh/2
+		tx := x0
+		if len(e.thumbs) > 0 {
+			icon := draw.Canvas{Canvas: c.Canvas, Rectangle: vg.Rectangle{
+				Min: vg.Point{X: x0, Y: yc - rh/2},
+				Max: vg.Point{X: x0 + vg.Points(legendThumb), Y: yc + rh/2},
+			}}
+			for _, t := range e.thumbs {
+				t.Thumbnail(&icon)
+			}
+			tx += vg.Points(legendThumb + legendGap)
+		}
+		c.FillText(st, vg.Point{X: tx, Y: yc}, e.text)
+	}
+}
+
+func write(path, format string, fig *figure) error {
+	w, h := fig.w, fig.h
 	var c vg.CanvasWriterTo
 	switch strings.ToLower(format) {
 	case "png":
@@ -267,16 +641,7 @@ func write(path, format string, w, h vg.Length, plots []*plot.Plot) error {
 	default:
 		return fmt.Errorf("%s: unknown figure format %q (allowed: %s)", path, format, strings.Join(Formats, ", "))
 	}
-	dc := draw.New(c)
-	tiles := draw.Tiles{Rows: len(plots), Cols: 1, PadTop: vg.Points(4), PadBottom: vg.Points(2), PadLeft: vg.Points(2), PadRight: vg.Points(6), PadY: vg.Points(3)}
-	grid := make([][]*plot.Plot, len(plots))
-	for i, p := range plots {
-		grid[i] = []*plot.Plot{p}
-	}
-	canvases := plot.Align(grid, tiles, dc)
-	for i, p := range plots {
-		p.Draw(canvases[i][0])
-	}
+	fig.draw(draw.New(c))
 	dir, base := filepath.Split(path)
 	if dir == "" {
 		dir = "."
@@ -300,4 +665,68 @@ func write(path, format string, w, h vg.Length, plots []*plot.Plot) error {
 		return fmt.Errorf("writing %s: %w", path, err)
 	}
 	return nil
+}
+
+// draw lays the figure out top down: title, then for each panel its
+// legend row and the panel. The panels are aligned by plot.Align so that
+// their data areas share left and right edges and heights.
+func (f *figure) draw(dc draw.Canvas) {
+	top := dc.Max.Y
+	th := f.titleHeight()
+	lh := make([]vg.Length, len(f.panels))
+	var sum vg.Length
+	for i, pd := range f.panels {
+		lh[i] = f.legendHeight(pd.legend)
+		sum += lh[i]
+	}
+	area := dc
+	area.Max.Y = top - th - sum
+	tiles := draw.Tiles{Rows: len(f.panels), Cols: 1, PadTop: vg.Points(4), PadBottom: vg.Points(2), PadLeft: vg.Points(2), PadRight: vg.Points(6), PadY: vg.Points(3)}
+	grid := make([][]*plot.Plot, len(f.panels))
+	for i, pd := range f.panels {
+		grid[i] = []*plot.Plot{pd.p}
+	}
+	canvases := plot.Align(grid, tiles, area)
+	// Each panel moves up by the legend rows below it, which sit between
+	// it and the panels under it.
+	shift := make([]vg.Length, len(f.panels))
+	for i := len(f.panels) - 2; i >= 0; i-- {
+		shift[i] = shift[i+1] + lh[i+1]
+	}
+	dataLeft := dc.Min.X
+	for i, pd := range f.panels {
+		c := canvases[i][0]
+		c.Min.Y += shift[i]
+		c.Max.Y += shift[i]
+		pd.p.Draw(c)
+		data := pd.p.DataCanvas(c)
+		dataLeft = data.Min.X
+		if pd.note != "" {
+			st := textStyle(noteSize)
+			st.YAlign = text.YTop
+			st.Color = color.Gray{Y: 60}
+			data.FillText(st, vg.Point{X: data.Min.X + vg.Points(3), Y: data.Max.Y - vg.Points(2)}, pd.note)
+		}
+		if lh[i] > 0 {
+			f.drawLegend(dc, pd.legend, data.Min.X, c.Max.Y+lh[i]-vg.Points(1))
+		}
+	}
+	if f.title != "" {
+		// Centred over the data area, moved (and if need be shrunk) to
+		// stay inside the figure.
+		lo, hi := dc.Min.X+vg.Points(2), dc.Max.X-vg.Points(2)
+		for k, line := range strings.Split(f.title, "\n") {
+			st := textStyle(titleSize)
+			if w := st.Width(line); w > hi-lo {
+				st = textStyle(math.Max(5.5, titleSize*float64((hi-lo)/w)))
+			}
+			st.XAlign = text.XCenter
+			st.YAlign = text.YTop
+			w := st.Width(line)
+			mid := (dataLeft + dc.Max.X) / 2
+			mid = min(mid, hi-w/2)
+			mid = max(mid, lo+w/2)
+			dc.FillText(st, vg.Point{X: mid, Y: top - vg.Points(2) - vg.Length(k)*vg.Points(titleSize*1.25)}, line)
+		}
+	}
 }

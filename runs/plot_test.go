@@ -1,0 +1,207 @@
+package runs
+
+import (
+	"context"
+	"errors"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"maserpol/runs/ecsv"
+	"maserpol/transfer"
+)
+
+// oneCheckpoint is a model that stops at its first checkpoint, far below
+// saturation, at theta = 90 deg: P_V and V are round-off (as a short
+// column, e.g. column.gain = 5, gives). Plotting it once panicked on the
+// log axis of the saturation figure.
+func oneCheckpoint(ctx context.Context, p transfer.Params) (*transfer.Trajectory, error) {
+	tr, err := synthetic(ctx, p)
+	if err != nil {
+		return nil, err
+	}
+	cp := tr.Checkpoints[0]
+	cp.Saturation, cp.RoverGOmega, cp.Valid = 7e-7, 1.9e-10, true
+	cp.PV, cp.Ml = 9e-19, 4.2e-5
+	for i := range cp.V {
+		cp.V[i] = 1e-19 * cp.I[i]
+	}
+	tr.Checkpoints = []transfer.Checkpoint{cp}
+	return tr, nil
+}
+
+const cfgOne = `species = "sio-v1-j1-0"
+[field]
+strength = "5 G"
+[line]
+channels = 32
+[output]
+plots = true
+formats = ["svg"]
+`
+
+func TestPlotSingleCheckpoint(t *testing.T) {
+	dir := t.TempDir()
+	rep := execute(t, study(t, cfgOne), dir, Options{Model: oneCheckpoint})
+	for _, f := range []string{"saturation.svg", "m0000_spectra.svg"} {
+		if _, err := os.Stat(filepath.Join(dir, "plots", f)); err != nil {
+			t.Errorf("figure %s not drawn: %v (figures %v, notes %v)", f, err, rep.Figures, rep.Notes)
+		}
+	}
+	svg, _ := os.ReadFile(filepath.Join(dir, "plots", "m0000_spectra.svg"))
+	if strings.Contains(string(svg), "e-19") || !strings.Contains(string(svg), "V = 0 (θ = 90 deg)") {
+		t.Error("round-off V is not drawn as zero with its reason")
+	}
+	man, err := ReadManifest(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if man.Status != StudyComplete || man.Models[0].Status != StatusDone {
+		t.Errorf("manifest status %s, model %s", man.Status, man.Models[0].Status)
+	}
+}
+
+// A failure to draw figures comes after the tables and the manifest: the
+// models stay recorded as done.
+func TestPlotFailureKeepsManifest(t *testing.T) {
+	dir := t.TempDir()
+	blockPlots := func(ctx context.Context, p transfer.Params) (*transfer.Trajectory, error) {
+		// A file where plots/ should go makes drawing fail.
+		os.WriteFile(filepath.Join(dir, "plots"), []byte("x"), 0o644)
+		return synthetic(ctx, p)
+	}
+	_, err := Execute(context.Background(), study(t, cfgOne), dir, Options{Model: blockPlots})
+	var pe *PlotError
+	if err == nil || !errors.As(err, &pe) {
+		t.Fatalf("error %v, want a PlotError", err)
+	}
+	man, _ := ReadManifest(dir)
+	if man == nil || man.Status != StudyComplete || man.Models[0].Status != StatusDone || man.Finished == "" {
+		t.Errorf("manifest after a plotting failure: %+v", man)
+	}
+}
+
+func TestPlotKeepsOtherFormats(t *testing.T) {
+	dir := t.TempDir()
+	execute(t, study(t, strings.Replace(cfg2x3, "plots = false", "plots = true\nformats = [\"svg\"]", 1)), dir, Options{})
+	pd := filepath.Join(dir, "plots")
+	for _, f := range []string{"theta_9.svg", "theta_9.pdf", "notes.svg"} {
+		os.WriteFile(filepath.Join(pd, f), []byte("old"), 0o644)
+	}
+	if _, err := Plot(dir, []string{"pdf"}, nil); err != nil {
+		t.Fatal(err)
+	}
+	for f, want := range map[string]bool{
+		"theta.svg": true, "theta.pdf": true, "m0000_spectra.svg": true, "saturation.pdf": true,
+		"theta_9.svg": true,  // stale, but not in the requested format
+		"theta_9.pdf": false, // stale in the requested format
+		"notes.svg":   true,  // not ours
+	} {
+		if _, err := os.Stat(filepath.Join(pd, f)); (err == nil) != want {
+			t.Errorf("%s: present = %v, want %v", f, err == nil, want)
+		}
+	}
+}
+
+func TestSaturationFigureNames(t *testing.T) {
+	dir := t.TempDir()
+	cfg := strings.Replace(strings.Replace(cfg2x3, `["10 mG", "30 mG"]`, `["10 mG", "3 G"]`, 1), `["30 deg", "60 deg", "90 deg"]`, `["30 deg", "45 deg", "60 deg", "90 deg"]`, 1)
+	rep := execute(t, study(t, strings.Replace(cfg, "plots = false", "plots = true\nformats = [\"svg\"]", 1)), dir, Options{})
+	// 8 models > 6 curves: one figure per field strength, named by it.
+	for _, f := range []string{"saturation_B10mG.svg", "saturation_B3G.svg", "theta.svg"} {
+		if _, err := os.Stat(filepath.Join(dir, "plots", f)); err != nil {
+			t.Errorf("missing %s (have %v)", f, rep.Figures)
+		}
+	}
+	for _, f := range rep.Figures {
+		if !ownFigure.MatchString(filepath.Base(f)) {
+			t.Errorf("%s is not matched by ownFigure, so a redraw would not replace it", f)
+		}
+	}
+}
+
+func TestSpectraCarryValidity(t *testing.T) {
+	dir := t.TempDir()
+	execute(t, study(t, cfg2x3), dir, Options{})
+	sum, err := ecsv.ReadFile(filepath.Join(dir, "summary.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	names, _ := sum.Strings("model")
+	ck, _ := sum.Floats("checkpoint")
+	r, _ := sum.Floats("r_over_gomega")
+	ok, _ := sum.Bools("valid")
+	sp, err := ecsv.ReadFile(filepath.Join(dir, "spectra", "m0000.ecsv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	sck, _ := sp.Floats("checkpoint")
+	sr, err := sp.Floats("r_over_gomega")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sok, err := sp.Bools("valid")
+	if err != nil {
+		t.Fatal(err)
+	}
+	n := 0
+	for i := range names {
+		if names[i] != "m0000" {
+			continue
+		}
+		for j := range sck {
+			if sck[j] == ck[i] {
+				n++
+				if sr[j] != r[i] || sok[j] != ok[i] {
+					t.Fatalf("checkpoint %g: spectra say %g/%v, summary %g/%v", ck[i], sr[j], sok[j], r[i], ok[i])
+				}
+			}
+		}
+	}
+	if n != len(sck) {
+		t.Errorf("%d of %d spectra rows matched a summary checkpoint", n, len(sck))
+	}
+	man, _ := ReadManifest(dir)
+	if strings.Join(man.VariedColumns, ",") != "B_mG,theta_deg" || strings.Join(man.ParameterColumns, ",") != "B_mG,theta_deg,chi_deg" {
+		t.Errorf("manifest columns: parameter %v, varied %v", man.ParameterColumns, man.VariedColumns)
+	}
+}
+
+func TestParamTag(t *testing.T) {
+	for _, c := range []struct {
+		p    param
+		want string
+	}{
+		{param{ecsv.Column{Name: "B_mG", Unit: "mG"}, 3000}, "B3G"},
+		{param{ecsv.Column{Name: "B_mG", Unit: "mG"}, 300}, "B300mG"},
+		{param{ecsv.Column{Name: "B_mG", Unit: "mG"}, -1500}, "B-1.5G"},
+		{param{ecsv.Column{Name: "doppler_kms", Unit: "km / s"}, 0.8}, "vD0.8kms"},
+		{param{ecsv.Column{Name: "theta_deg", Unit: "deg"}, 54.7}, "theta54.7deg"},
+	} {
+		if got := paramTag(c.p); got != c.want {
+			t.Errorf("paramTag(%v) = %q, want %q", c.p, got, c.want)
+		}
+	}
+}
+
+// A figure with nothing to draw is skipped with a note; the others are
+// drawn and the run succeeds.
+func TestPlotSkipsEmptyFigure(t *testing.T) {
+	nanPol := func(ctx context.Context, p transfer.Params) (*transfer.Trajectory, error) {
+		tr, err := synthetic(ctx, p)
+		for i := range tr.Checkpoints {
+			tr.Checkpoints[i].Ml, tr.Checkpoints[i].PV = math.NaN(), math.NaN()
+		}
+		return tr, err
+	}
+	dir := t.TempDir()
+	rep := execute(t, study(t, cfgOne), dir, Options{Model: nanPol})
+	if len(rep.Notes) != 1 || !strings.Contains(rep.Notes[0], "saturation skipped") {
+		t.Errorf("notes %q", rep.Notes)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "plots", "m0000_spectra.svg")); err != nil {
+		t.Error(err)
+	}
+}
