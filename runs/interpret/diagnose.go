@@ -666,16 +666,22 @@ func envelopes(rs []CaseResult, b Branch) []Envelope {
 		e := Envelope{Mechanism: mech, Saturation: sat, Lo: make([]float64, n), Hi: make([]float64, n)}
 		any := false
 		for k, s := range sat {
+			// The band is drawn only where every model of the mechanism
+			// reaches: at the ends of the grid, where some curves stop,
+			// a min/max over fewer models would show false jumps.
 			iv := emptyInterval()
+			models, covered := 0, 0
 			for _, r := range rs {
 				if r.Case.Mechanism != mech || r.Err != nil || len(r.Curve) == 0 {
 					continue
 				}
+				models++
 				if x, ok := r.Curve.At(s); ok {
+					covered++
 					iv.extend(x.Project(b))
 				}
 			}
-			if iv.Empty() {
+			if iv.Empty() || covered < models {
 				e.Lo[k], e.Hi[k] = math.NaN(), math.NaN()
 				continue
 			}
