@@ -565,3 +565,161 @@ func TestTensorSpinSpinTwoHalfSpins(t *testing.T) {
 		}
 	}
 }
+
+// TestLabelsThroughDecoupling follows the HCN-like J=1 level (one I=1
+// nucleus with a quadrupole) from zero field into the Paschen-Back regime
+// on a fine geometric grid. Label carrying is a naming convention: the one
+// held here is the adiabatic connection (common practice), under which a
+// state keeps its zero-field name along the path it follows as B grows.
+// Within one M block nothing but M is conserved, so levels do not cross
+// (non-crossing rule, von Neumann & Wigner 1929) and the adiabatic name of
+// the k-th lowest state of a block is that of the k-th lowest at B = 0.
+// Checked at every field: (a) the (F, M) labels are the zero-field multiset,
+// each used once; (b) between neighbouring fields each state keeps the label
+// of the state at the previous field with which it overlaps most, and that
+// overlap is unambiguous; the same labels follow from the energy order in
+// each block; (c) at the strongest field every state is a product state
+// (m_J, m_I) with slope s mu_N (g_J m_J + g_I m_I) (Paschen-Back), and no
+// two states share a label.
+func TestLabelsThroughDecoupling(t *testing.T) {
+	l := hcnLike().Upper
+	s, err := NewSolver(l)
+	if err != nil {
+		t.Fatal(err)
+	}
+	gJ, gI := l.G, l.Spins[0].G
+	smu := -Nuclear.HzPerGauss()
+	// Decoupling: |g_I| mu_N B equals eQq_J = 0.942 MHz near 3 kG. The grid
+	// runs from 1e-3 G (Zeeman below 1e-6 of the hyperfine) to 1e8 G (hyperfine
+	// 3e-5 of the Zeeman), 40 points per decade.
+	fields := []float64{0}
+	for k := 0; k <= 11*40; k++ {
+		fields = append(fields, 1e-3*math.Pow(10, float64(k)/40))
+	}
+	type label struct{ F, M float64 }
+	var zero, prev, cur Structure
+	if err := s.Solve(0, &zero); err != nil {
+		t.Fatal(err)
+	}
+	want := map[label]int{}
+	for _, st := range zero.States {
+		want[label{st.F, st.M}]++
+	}
+	for F := 0.0; F <= 2; F++ {
+		for M := -F; M <= F; M++ {
+			if want[label{F, M}] != 1 {
+				t.Fatalf("zero field: label F=%g M=%g used %d times, want once", F, M, want[label{F, M}])
+			}
+		}
+	}
+	// rank[i] is the zero-field label of the state with the same energy
+	// rank in the block of state i.
+	block := func(st *Structure, i int) []int {
+		var idx []int
+		for j := range st.States {
+			if st.States[j].M == st.States[i].M {
+				idx = append(idx, j)
+			}
+		}
+		sort.SliceStable(idx, func(a, b int) bool { return st.States[idx[a]].Energy < st.States[idx[b]].Energy })
+		return idx
+	}
+	dot := func(a, b []float64) float64 {
+		x := 0.0
+		for i := range a {
+			x += a[i] * b[i]
+		}
+		return x
+	}
+	prev = zero
+	prev.States = append([]State(nil), zero.States...)
+	for fi, B := range fields[1:] {
+		if err := s.Solve(B, &cur); err != nil {
+			t.Fatal(err)
+		}
+		// (a) every zero-field label once.
+		got := map[label]int{}
+		for _, st := range cur.States {
+			got[label{st.F, st.M}]++
+		}
+		for lb, n := range want {
+			if got[lb] != n {
+				t.Errorf("B=%.4g G: label F=%g M=%g used %d times, want %d", B, lb.F, lb.M, got[lb], n)
+			}
+		}
+		// (b) continuity by overlap with the previous field.
+		for i, st := range cur.States {
+			best, second, bj := 0.0, 0.0, -1
+			for j, p := range prev.States {
+				if p.M != st.M {
+					continue
+				}
+				o := math.Abs(dot(st.Vector, p.Vector))
+				if o > best {
+					best, second, bj = o, best, j
+				} else if o > second {
+					second = o
+				}
+			}
+			// On this grid (a factor 10^(1/40) = 1.06 per step) neighbouring
+			// eigenvectors overlap by more than 0.9 and others by less than
+			// 0.45, so the connection is unambiguous (checked, not assumed).
+			if best < 0.9 || second > 0.45 {
+				t.Fatalf("B=%.4g G, state %d: overlaps %.3f and %.3f with the previous field (%.4g G): grid too coarse to connect", B, i, best, second, fields[fi])
+			}
+			if p := prev.States[bj]; p.F != st.F || p.Multiplet != st.Multiplet {
+				t.Errorf("B=%.4g G: state M=%g (E = %.6g MHz) is labelled F=%g, but at %.4g G its adiabatic predecessor (overlap %.4f) was F=%g",
+					B, st.M, st.Energy/1e6, st.F, fields[fi], best, p.F)
+			}
+		}
+		// (b') non-crossing: the k-th lowest of a block keeps the label of
+		// the k-th lowest at zero field.
+		for i := range cur.States {
+			if i > 0 && cur.States[i-1].M == cur.States[i].M {
+				continue // one pass per block (States are ordered by M)
+			}
+			bc, bz := block(&cur, i), block(&zero, i)
+			for k := range bc {
+				if c, z := cur.States[bc[k]], zero.States[bz[k]]; c.F != z.F {
+					t.Errorf("B=%.4g G, M=%g: energy rank %d is labelled F=%g, the non-crossing rule gives F=%g", B, c.M, k, c.F, z.F)
+				}
+			}
+		}
+		prev.States, cur.States = cur.States, prev.States
+		prev.Field = B
+	}
+	if t.Failed() {
+		return
+	}
+	// (c) Paschen-Back at the end of the grid: each state is dominated by one
+	// product state (weight > 1 - 1e-6: the mixing is (eQq_J/(g mu_N B))^2
+	// ~ 1e-9), the slope matches, and labels map one-to-one to (m_J, m_I).
+	hi := prev
+	var hi2 Structure
+	B2 := fields[len(fields)-1] * 1.01
+	if err := s.Solve(B2, &hi2); err != nil {
+		t.Fatal(err)
+	}
+	seen := map[[2]float64]label{}
+	for i, st := range hi.States {
+		k, w := 0, 0.0
+		for j, a := range st.Vector {
+			if a*a > w {
+				k, w = j, a*a
+			}
+		}
+		if w < 1-1e-6 {
+			t.Errorf("B=%.4g G: state F=%g M=%g is not a product state (largest weight %.9f)", hi.Field, st.F, st.M, w)
+		}
+		bs := s.Basis()[k]
+		pb := [2]float64{bs.MJ, bs.MI[0]}
+		if old, ok := seen[pb]; ok {
+			t.Errorf("labels F=%g M=%g and F=%g M=%g both decouple to m_J=%g m_I=%g", old.F, old.M, st.F, st.M, pb[0], pb[1])
+		}
+		seen[pb] = label{st.F, st.M}
+		slope := (hi2.States[i].Energy - st.Energy) / (B2 - hi.Field)
+		if wantS := smu * (gJ*bs.MJ + gI*bs.MI[0]); math.Abs(slope-wantS) > 1e-6*math.Abs(smu) {
+			t.Errorf("F=%g M=%g (m_J=%g m_I=%g): slope %g Hz/G, Paschen-Back %g", st.F, st.M, bs.MJ, bs.MI[0], slope, wantS)
+		}
+	}
+}
