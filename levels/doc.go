@@ -52,6 +52,14 @@
 // eigenvector of its M block with the largest overlap (greedy one-to-one
 // assignment), and its sign is chosen to make that overlap positive.
 // Labels are names; the physics uses the eigenvectors. MJ2 = <m_J^2>.
+// Known limitation: past hyperfine decoupling the overlaps with the
+// zero-field vectors become comparable and two states of one M block can
+// swap labels between neighbouring fields although their eigenvectors
+// hardly change (seen above about 40 G for h2o-22, 80 G for oh-like-main,
+// 7 G for synthetic-j6-5; not for single-spin quadrupole levels, which
+// TestLabelsThroughDecoupling follows to 1e8 G). Track states across
+// fields by eigenvector overlap or by energy order within an M block
+// (non-crossing rule), as the Zeeman diagram does, not by label.
 //
 // # Transitions
 //
