@@ -66,7 +66,7 @@ func (ps *parser) err(key, allowed, format string, args ...any) *Error {
 // or the table where a key of that name lives.
 func (ps *parser) unknown(path, name string, known []string) *Error {
 	e := ps.err(path, quoteList(known), "unknown key %q", name)
-	if s := closest(name, known); s != "" {
+	if s := tomlpos.Closest(name, known); s != "" {
 		e.Suggest = strconv.Quote(s)
 		return e
 	}
@@ -254,7 +254,7 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 		str, _ := v.(string)
 		if !contains(s.enum, str) {
 			e := ps.err(path, s.allowed(), "unknown value %v", tomlValue(v))
-			if c := closest(str, s.enum); c != "" {
+			if c := tomlpos.Closest(str, s.enum); c != "" {
 				e.Suggest = strconv.Quote(c)
 			}
 			return e

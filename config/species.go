@@ -12,6 +12,7 @@ import (
 
 	"github.com/BurntSushi/toml"
 
+	"maserpol/config/tomlpos"
 	"maserpol/levels"
 	"maserpol/levels/species"
 )
@@ -62,10 +63,10 @@ func (ps *parser) resolveSpecies(pd *parsed) *Error {
 		} else {
 			sp, err = species.Resolve(ref)
 		}
-		var se *species.Error
+		var se *Error
 		if err != nil && isPath && errors.As(err, &se) && se.Line > 0 {
 			// An error inside the species file: report it where it is.
-			return &Error{File: se.File, Line: se.Line, Key: se.Key, Msg: se.Msg, Allowed: se.Allowed, Suggest: se.Suggest}
+			return se
 		}
 		if err != nil {
 			msg := err.Error()
@@ -74,7 +75,7 @@ func (ps *parser) resolveSpecies(pd *parsed) *Error {
 			}
 			e := ps.err("species", speciesAllowed(), "species %q: %s", v, msg)
 			if !isPath {
-				if c := closest(v, species.Names()); c != "" {
+				if c := tomlpos.Closest(v, species.Names()); c != "" {
 					e.Suggest = strconv.Quote(c)
 				}
 			}
@@ -112,7 +113,7 @@ func (ps *parser) resolveSpecies(pd *parsed) *Error {
 		sp, err := species.Parse(buf.Bytes(), ps.file+" [species]")
 		if err != nil {
 			e := ps.err("species", "a species table as in a species file", "inline species: %v", err)
-			var se *species.Error
+			var se *Error
 			if errors.As(err, &se) {
 				// Keys of the re-encoded table are the config's keys below [species].
 				e.Key = "species." + se.Key

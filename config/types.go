@@ -1,8 +1,7 @@
 package config
 
 import (
-	"strconv"
-
+	"maserpol/config/tomlpos"
 	"maserpol/transfer"
 )
 
@@ -43,31 +42,7 @@ type Study struct {
 	Warnings []string
 }
 
-// Error is a configuration error that names where it is. The command exits
-// with status 2 on any *Error.
-type Error struct {
-	File    string
-	Line    int // 1-based; 0 when unknown
-	Key     string
-	Msg     string
-	Allowed string // allowed values or range, if any
-	Suggest string // "did you mean" suggestion, if any
-}
-
-func (e *Error) Error() string {
-	s := e.File
-	if e.Line > 0 {
-		s += ":" + strconv.Itoa(e.Line)
-	}
-	if e.Key != "" {
-		s += ": key " + e.Key
-	}
-	s += ": " + e.Msg
-	if e.Allowed != "" {
-		s += " (allowed: " + e.Allowed + ")"
-	}
-	if e.Suggest != "" {
-		s += "; did you mean " + e.Suggest + "?"
-	}
-	return s
-}
+// Error is a configuration error that names where it is (file, line, key,
+// allowed values, suggestion). The command exits with status 2 on any
+// *Error. It is the same type as the species-file error.
+type Error = tomlpos.Error

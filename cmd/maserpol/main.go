@@ -18,7 +18,6 @@ import (
 	"syscall"
 
 	"maserpol/config"
-	"maserpol/levels/species"
 	"maserpol/runs"
 )
 
@@ -188,11 +187,10 @@ func flagExit(err error) int {
 // inputExit reports whether err is bad input (exit 2) and prints it.
 func report(stderr io.Writer, err error) int {
 	fmt.Fprintf(stderr, "maserpol: %v\n", err)
-	var ce *config.Error
-	var se *species.Error
+	var ce *config.Error // also species-file errors: the same type
 	var ie *runs.InputError
 	var ue *usageError
-	if errors.As(err, &ce) || errors.As(err, &se) || errors.As(err, &ie) || errors.As(err, &ue) {
+	if errors.As(err, &ce) || errors.As(err, &ie) || errors.As(err, &ue) {
 		return exitInput
 	}
 	return exitFailure

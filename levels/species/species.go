@@ -21,34 +21,9 @@ import (
 //go:embed presets/*.toml
 var presetFS embed.FS
 
-// Error is a species-file error that names where it is (same shape as
-// maserpol/config.Error, which this package cannot import).
-type Error struct {
-	File    string
-	Line    int // 1-based; 0 when unknown
-	Key     string
-	Msg     string
-	Allowed string
-	Suggest string
-}
-
-func (e *Error) Error() string {
-	s := e.File
-	if e.Line > 0 {
-		s += ":" + strconv.Itoa(e.Line)
-	}
-	if e.Key != "" {
-		s += ": key " + e.Key
-	}
-	s += ": " + e.Msg
-	if e.Allowed != "" {
-		s += " (allowed: " + e.Allowed + ")"
-	}
-	if e.Suggest != "" {
-		s += "; did you mean " + e.Suggest + "?"
-	}
-	return s
-}
+// Error is a species-file error that names where it is; it is the same
+// type as maserpol/config.Error.
+type Error = tomlpos.Error
 
 // Names returns the preset names, sorted.
 func Names() []string {
@@ -68,7 +43,7 @@ func Preset(name string) (*levels.Species, error) {
 	data, err := presetFS.ReadFile(path.Join("presets", name+".toml"))
 	if err != nil {
 		return nil, &Error{File: "preset " + name, Msg: "no such species preset",
-			Allowed: strings.Join(Names(), ", "), Suggest: closest(name, Names())}
+			Allowed: strings.Join(Names(), ", "), Suggest: tomlpos.Closest(name, Names())}
 	}
 	return Parse(data, "preset "+name)
 }
@@ -79,7 +54,7 @@ func PresetSource(name string) ([]byte, error) {
 	data, err := presetFS.ReadFile(path.Join("presets", name+".toml"))
 	if err != nil {
 		return nil, &Error{File: "preset " + name, Msg: "no such species preset",
-			Allowed: strings.Join(Names(), ", "), Suggest: closest(name, Names())}
+			Allowed: strings.Join(Names(), ", "), Suggest: tomlpos.Closest(name, Names())}
 	}
 	return data, nil
 }
@@ -104,7 +79,7 @@ func Resolve(nameOrPath string) (*levels.Species, error) {
 	if _, err := os.Stat(nameOrPath); err != nil {
 		return nil, &Error{File: nameOrPath, Msg: "neither a species preset nor a readable species file",
 			Allowed: "a preset (" + strings.Join(Names(), ", ") + ") or a species file path",
-			Suggest: closest(nameOrPath, Names())}
+			Suggest: tomlpos.Closest(nameOrPath, Names())}
 	}
 	return Load(nameOrPath)
 }
@@ -146,7 +121,7 @@ func (p *parser) checkKeys(prefix string, m map[string]any, allowed []string) er
 		}
 		if !ok {
 			e := p.err(join(prefix, k), strings.Join(allowed, ", "), "unknown key")
-			e.Suggest = closest(k, allowed)
+			e.Suggest = tomlpos.Closest(k, allowed)
 			return e
 		}
 	}
@@ -208,7 +183,7 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		sp.Magneton = levels.Bohr
 	default:
 		e := p.err("magneton", "nuclear, bohr", "unknown magneton %q", mag)
-		e.Suggest = closest(mag, []string{"nuclear", "bohr"})
+		e.Suggest = tomlpos.Closest(mag, []string{"nuclear", "bohr"})
 		return nil, e
 	}
 	if v, ok := raw["unverified"]; ok {
@@ -294,7 +269,7 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		kind, ok := kindNames[kn]
 		if !ok {
 			e := p.err(pre+".kind", kindList, "unknown coupling kind %q", kn)
-			e.Suggest = closest(kn, strings.Split(kindList, ", "))
+			e.Suggest = tomlpos.Closest(kn, strings.Split(kindList, ", "))
 			return nil, e
 		}
 		lvName, err := p.str(t, "level", "", true, pre)
@@ -311,7 +286,7 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 			targets = []*levels.Level{&sp.Upper, &sp.Lower}
 		default:
 			e := p.err(pre+".level", "upper, lower, both", "unknown level %q", lvName)
-			e.Suggest = closest(lvName, []string{"upper", "lower", "both"})
+			e.Suggest = tomlpos.Closest(lvName, []string{"upper", "lower", "both"})
 			return nil, e
 		}
 		idx, err := p.spinRefs(t, pre, spinNames)
@@ -445,7 +420,7 @@ func (p *parser) spinRefs(t map[string]any, pre string, names []string) ([]int, 
 				allowed = "none: the file has no [[spin]] tables"
 			}
 			e := p.err(key, allowed, "unknown spin %q", s)
-			e.Suggest = closest(s, names)
+			e.Suggest = tomlpos.Closest(s, names)
 			return nil, e
 		}
 		idx = append(idx, k)
@@ -582,36 +557,3 @@ func typeName(v any) string {
 
 // closest returns the candidate within edit distance 2 (or a third of the
 // length) of s, or "".
-func closest(s string, cands []string) string {
-	best, bd := "", 1<<30
-	for _, c := range cands {
-		if d := editDistance(strings.ToLower(s), strings.ToLower(c)); d < bd {
-			best, bd = c, d
-		}
-	}
-	if bd <= max(2, len(s)/3) {
-		return best
-	}
-	return ""
-}
-
-func editDistance(a, b string) int {
-	ra, rb := []rune(a), []rune(b)
-	prev := make([]int, len(rb)+1)
-	cur := make([]int, len(rb)+1)
-	for j := range prev {
-		prev[j] = j
-	}
-	for i := 1; i <= len(ra); i++ {
-		cur[0] = i
-		for j := 1; j <= len(rb); j++ {
-			c := 1
-			if ra[i-1] == rb[j-1] {
-				c = 0
-			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+c)
-		}
-		prev, cur = cur, prev
-	}
-	return prev[len(rb)]
-}

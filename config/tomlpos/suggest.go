@@ -1,11 +1,11 @@
-package config
+package tomlpos
 
 import "strings"
 
-// distance is the optimal-string-alignment edit distance between a and b:
+// Distance is the optimal-string-alignment edit distance between a and b:
 // insertions, deletions, substitutions and transpositions of adjacent runes
 // each cost 1 (Damerau 1964), so "feild" is one edit from "field".
-func distance(a, b string) int {
+func Distance(a, b string) int {
 	ra, rb := []rune(a), []rune(b)
 	d := make([][]int, len(ra)+1)
 	for i := range d {
@@ -30,16 +30,16 @@ func distance(a, b string) int {
 	return d[len(ra)][len(rb)]
 }
 
-// closest returns the candidate nearest to s, or "" when none is close: a
+// Closest returns the candidate nearest to s, or "" when none is close: a
 // case-insensitive match, a prefix of at least 3 characters, or an edit
 // distance of at most max(1, len/3) (common practice for "did you mean").
-func closest(s string, candidates []string) string {
+func Closest(s string, candidates []string) string {
 	best, bestD := "", 1<<30
 	for _, c := range candidates {
 		if strings.EqualFold(s, c) {
 			return c
 		}
-		d := distance(strings.ToLower(s), strings.ToLower(c))
+		d := Distance(strings.ToLower(s), strings.ToLower(c))
 		if d < bestD {
 			best, bestD = c, d
 		}
