@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -154,10 +155,10 @@ func (ps *parser) structure(raw map[string]any, specs []*spec, pd *parsed) *Erro
 	top := append([]string{}, known[""]...)
 	top = append(top, tables[1:]...)
 	for _, k := range sortedKeys(raw) {
-		if !contains(top, k) {
+		if !slices.Contains(top, k) {
 			return ps.unknown(k, k, top)
 		}
-		if k == "species" || !contains(tables, k) {
+		if k == "species" || !slices.Contains(tables, k) {
 			pd.given[k] = true
 			continue
 		}
@@ -166,7 +167,7 @@ func (ps *parser) structure(raw map[string]any, specs []*spec, pd *parsed) *Erro
 			return ps.err(k, "a table ["+k+"]", "%s must be a table, not %s", k, tomlType(raw[k]))
 		}
 		for _, kk := range sortedKeys(t) {
-			if !contains(known[k], kk) {
+			if !slices.Contains(known[k], kk) {
 				return ps.unknown(k+"."+kk, kk, known[k])
 			}
 			pd.given[k+"."+kk] = true
@@ -252,7 +253,7 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 		pd.str[path] = str
 	case tEnum:
 		str, _ := v.(string)
-		if !contains(s.enum, str) {
+		if !slices.Contains(s.enum, str) {
 			e := ps.err(path, s.allowed(), "unknown value %v", tomlValue(v))
 			if c := tomlpos.Closest(str, s.enum); c != "" {
 				e.Suggest = strconv.Quote(c)
@@ -274,10 +275,10 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 		var out []string
 		for _, e := range list {
 			str, _ := e.(string)
-			if !contains(s.enum, str) {
+			if !slices.Contains(s.enum, str) {
 				return ps.err(path, s.allowed(), "unknown value %v", tomlValue(e))
 			}
-			if !contains(out, str) {
+			if !slices.Contains(out, str) {
 				out = append(out, str)
 			}
 		}

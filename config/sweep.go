@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -194,7 +195,7 @@ func (ps *parser) param(s *spec, v any) (*param, *Error) {
 
 func (ps *parser) checkKeys(key string, t map[string]any, known []string) *Error {
 	for _, k := range sortedKeys(t) {
-		if !contains(known, k) {
+		if !slices.Contains(known, k) {
 			return ps.unknown(key+"."+k, k, known)
 		}
 	}
@@ -230,7 +231,7 @@ func (ps *parser) rangeOf(p *param, t map[string]any) *Error {
 	p.spacing = "lin"
 	if sp, ok := t["spacing"]; ok {
 		str, _ := sp.(string)
-		if !contains(spacings, str) {
+		if !slices.Contains(spacings, str) {
 			return ps.err(key+".spacing", quoteList(spacings), "unknown spacing %v", sp)
 		}
 		p.spacing = str
@@ -276,7 +277,7 @@ func (ps *parser) random(p *param, t map[string]any) *Error {
 		return ps.err(key, "a list or a range", "integer keys cannot be drawn at random")
 	}
 	d, _ := t["dist"].(string)
-	if !contains(dists, d) {
+	if !slices.Contains(dists, d) {
 		return ps.err(key+".dist", quoteList(dists), "unknown distribution %v", t["dist"])
 	}
 	p.dist = d
@@ -452,15 +453,6 @@ func sortedKeys(m map[string]any) []string {
 	}
 	sort.Strings(ks)
 	return ks
-}
-
-func contains(xs []string, x string) bool {
-	for _, y := range xs {
-		if x == y {
-			return true
-		}
-	}
-	return false
 }
 
 func tomlType(v any) string {

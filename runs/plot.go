@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -96,7 +97,7 @@ func removeOwnFigures(pd string, formats []string) {
 	ents, _ := os.ReadDir(pd)
 	for _, e := range ents {
 		ext := strings.ToLower(strings.TrimPrefix(filepath.Ext(e.Name()), "."))
-		if ownFigure.MatchString(e.Name()) && contains(formats, ext) {
+		if ownFigure.MatchString(e.Name()) && slices.Contains(formats, ext) {
 			os.Remove(filepath.Join(pd, e.Name()))
 		}
 	}
@@ -244,7 +245,7 @@ func label(m *summaryModel, cols []string, species bool, skip string) string {
 		parts = append(parts, m.species)
 	}
 	for _, p := range m.params {
-		if p.col.Name != skip && contains(cols, p.col.Name) {
+		if p.col.Name != skip && slices.Contains(cols, p.col.Name) {
 			parts = append(parts, paramLabel(p))
 		}
 	}
@@ -533,7 +534,7 @@ func plotSaturation(models []*summaryModel, save saver) error {
 
 func plotTheta(models []*summaryModel, save saver) error {
 	cols, sp := varying(models)
-	if !contains(cols, "theta_deg") {
+	if !slices.Contains(cols, "theta_deg") {
 		return nil
 	}
 	// Group by everything but theta; order groups by first appearance.

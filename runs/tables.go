@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -123,7 +124,7 @@ func newLayout(st *config.Study) layout {
 				}
 			}
 		}
-		if contains(l.params, name) {
+		if slices.Contains(l.params, name) {
 			continue
 		}
 		c := ecsv.Column{Name: name, Datatype: ecsv.Float64, Description: "swept parameter"}
@@ -142,15 +143,6 @@ func newLayout(st *config.Study) layout {
 	}
 	l.cols = append(l.cols, summaryTail...)
 	return l
-}
-
-func contains(xs []string, x string) bool {
-	for _, y := range xs {
-		if y == x {
-			return true
-		}
-	}
-	return false
 }
 
 // paramValues returns the model's value of each parameter column.

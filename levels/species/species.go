@@ -555,5 +555,3 @@ func typeName(v any) string {
 	return fmt.Sprintf("%T", v)
 }
 
-// closest returns the candidate within edit distance 2 (or a third of the
-// length) of s, or "".
