@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -322,47 +323,14 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 }
 
 // modelWarnings are the warnings of a model: those of the transfer
-// solution, with its validity warning replaced by one that also gives the
-// largest R/(g Omega) reached.
+// solution, plus its validity warning when the trajectory came from a
+// model function that does not add it (Options.Model in tests).
 func modelWarnings(tr *transfer.Trajectory) []string {
-	var out []string
-	for _, w := range tr.Warnings {
-		if !isValidityWarning(w) {
-			out = append(out, w)
-		}
-	}
-	if w := validityWarning(tr); w != "" {
+	out := append([]string(nil), tr.Warnings...)
+	if w := transfer.ValidityWarning(tr); w != "" && !slices.Contains(out, w) {
 		out = append(out, w)
 	}
 	return out
-}
-
-// isValidityWarning recognises the R/gOmega warning of package transfer
-// (the zero-field warning is kept as it is).
-func isValidityWarning(w string) bool {
-	return strings.HasPrefix(w, "R/gOmega") && strings.Contains(w, "exceeds")
-}
-
-// validityWarning says from where on a model is outside the
-// populations-only regime and how far, or returns "".
-func validityWarning(tr *transfer.Trajectory) string {
-	if tr.GOmega == 0 {
-		return "" // package transfer says so
-	}
-	n, first := 0, math.Inf(1)
-	maxR := 0.0
-	for _, cp := range tr.Checkpoints {
-		if !cp.Valid {
-			n++
-			first = math.Min(first, cp.Saturation)
-		}
-		maxR = math.Max(maxR, cp.RoverGOmega)
-	}
-	if n == 0 {
-		return ""
-	}
-	return fmt.Sprintf("R/gOmega exceeds %g from R/Gamma = %.3g on (g Omega = %.3g s^-1, max R/gOmega = %.3g; %d of %d checkpoints): Zeeman coherences, neglected by the rate equations, matter there (valid = False in the tables)",
-		ValidLimit, first, tr.GOmega, maxR, n, len(tr.Checkpoints))
 }
 
 // finished reads the status recorded in models/<name>.ecsv: done only if

@@ -417,9 +417,9 @@ func TestValidityWarning(t *testing.T) {
 	if v := rep.Validity; v.Checkpoints != 30 || v.Valid != 12 || v.MaxRoverGOmega != 100 {
 		t.Errorf("validity %+v, want 12 of 30, max 100", v)
 	}
-	// The validity warning of package transfer is replaced, not repeated.
+	// The validity warning that package transfer already gives is not repeated.
 	tr, _ := synthetic(context.Background(), st.Models[0].Params)
-	tr.Warnings = append(tr.Warnings, "R/gOmega = 1 exceeds 0.1 from saturation R/Gamma = 1 on (g Omega = 1 s^-1): ...", "other")
+	tr.Warnings = append(tr.Warnings, "other", transfer.ValidityWarning(tr))
 	if ws := modelWarnings(tr); len(ws) != 2 || ws[0] != "other" || !strings.HasPrefix(ws[1], want) {
 		t.Errorf("modelWarnings %q", ws)
 	}

@@ -17,7 +17,7 @@ import (
 // ValidLimit is the largest R/(g Omega) at which the populations-only
 // model (no coherences between eigenstates) is taken as valid
 // (physics.md section 4).
-const ValidLimit = 0.1
+const ValidLimit = transfer.ValidLimit
 
 // validityNote is written into every table that carries model results.
 const validityNote = "populations-only model (no coherences between Zeeman eigenstates): valid where R/(g Omega) <= 0.1; rows with valid = False are outside that regime"

@@ -309,7 +309,7 @@ func (m *Model) checkpoint(pos float64) Checkpoint {
 		cp.MlInt = sm / sw
 	}
 	cp.RoverGOmega = m.cur.sat * m.gamma / m.gOmega
-	cp.Valid = cp.RoverGOmega <= 0.1
+	cp.Valid = cp.RoverGOmega <= ValidLimit
 	return cp
 }
 
@@ -318,12 +318,34 @@ func (m *Model) validityWarnings(tr *Trajectory) {
 		tr.Warnings = append(tr.Warnings, "zero Zeeman splitting (g Omega = 0): the populations-only model is outside its validity (R/gOmega infinite) at every checkpoint")
 		return
 	}
+	if w := ValidityWarning(tr); w != "" {
+		tr.Warnings = append(tr.Warnings, w)
+	}
+}
+
+// ValidLimit is the largest R/(g Omega) at which a checkpoint counts as
+// inside the populations-only regime (Checkpoint.Valid).
+const ValidLimit = 0.1
+
+// ValidityWarning says from which saturation on a trajectory lies outside
+// the populations-only regime, how far (the largest R/(g Omega)) and at
+// how many checkpoints, or returns "" when every checkpoint is valid or
+// g Omega is zero (which Run reports separately).
+func ValidityWarning(tr *Trajectory) string {
+	if tr.GOmega == 0 {
+		return ""
+	}
+	n, first, maxR := 0, math.Inf(1), 0.0
 	for _, cp := range tr.Checkpoints {
 		if !cp.Valid {
-			tr.Warnings = append(tr.Warnings, fmt.Sprintf(
-				"R/gOmega = %.3g exceeds 0.1 from saturation R/Gamma = %.3g on (g Omega = %.3g s^-1): Zeeman coherences neglected by the rate equations matter there",
-				cp.RoverGOmega, cp.Saturation, m.gOmega))
-			return
+			n++
+			first = math.Min(first, cp.Saturation)
 		}
+		maxR = math.Max(maxR, cp.RoverGOmega)
 	}
+	if n == 0 {
+		return ""
+	}
+	return fmt.Sprintf("R/gOmega exceeds %g from R/Gamma = %.3g on (g Omega = %.3g s^-1, max R/gOmega = %.3g; %d of %d checkpoints): Zeeman coherences, neglected by the rate equations, matter there (valid = False in the tables)",
+		ValidLimit, first, tr.GOmega, maxR, n, len(tr.Checkpoints))
 }

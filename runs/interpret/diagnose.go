@@ -14,7 +14,7 @@ import (
 
 // ValidLimit is the largest R/(g Omega) at which the populations-only model
 // is taken as valid (physics.md section 4).
-const ValidLimit = 0.1
+const ValidLimit = transfer.ValidLimit
 
 // Mechanism is a way of producing linear polarization that Diagnose tests.
 type Mechanism int
