@@ -554,4 +554,3 @@ func typeName(v any) string {
 	}
 	return fmt.Sprintf("%T", v)
 }
-
