@@ -2,6 +2,7 @@ package levels
 
 import (
 	"fmt"
+	"math"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -132,6 +133,7 @@ func (t *TransitionSolver) Solve(field float64, dst *Transition) error {
 		p.tmp.Mul(p.d, lb.out)
 		p.amp.Mul(ub.out.T(), p.tmp)
 		nu, nl := p.amp.Dims()
+		sqrtNorm := math.Sqrt(t.norm)
 		for a := 0; a < nu; a++ {
 			for b := 0; b < nl; b++ {
 				v := p.amp.At(a, b)
@@ -140,11 +142,12 @@ func (t *TransitionSolver) Solve(field float64, dst *Transition) error {
 					continue
 				}
 				dst.Lines = append(dst.Lines, Line{
-					Upper:    ub.start + a,
-					Lower:    lb.start + b,
-					Q:        p.q,
-					Offset:   ub.outE[a] - lb.outE[b],
-					Strength: s,
+					Upper:     ub.start + a,
+					Lower:     lb.start + b,
+					Q:         p.q,
+					Offset:    ub.outE[a] - lb.outE[b],
+					Strength:  s,
+					Amplitude: sqrtNorm * v,
 				})
 			}
 		}

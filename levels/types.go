@@ -112,6 +112,11 @@ type Line struct {
 	// Strength is |<u|d_q|l>|^2 normalized so that, for every upper
 	// eigenstate, the sum over lower eigenstates is 1.
 	Strength float64
+	// Amplitude is the signed <u|d_q|l> on the same normalization
+	// (Amplitude^2 = Strength). Its sign is fixed by the phase of the
+	// eigenvectors; only products of amplitudes that share a state, as in
+	// the Zeeman coherences of package transfer, are physical.
+	Amplitude float64
 }
 
 // Transition is the solved upper and lower structures at one field and all

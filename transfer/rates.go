@@ -2,14 +2,10 @@ package transfer
 
 import (
 	"errors"
-	"fmt"
-	"math"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/lapack/lapack64"
-
-	"maserpol/levels"
 )
 
 // This file holds the steady-state population rate equations of
@@ -240,66 +236,4 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 		}
 	}
 	return nil
-}
-
-// pumpWeights returns the relative pump weight of every eigenstate of st
-// for the pump pm (mean 1 over the states of the level, so the total pump
-// rate is fixed). See doc.go for the alignment form.
-func pumpWeights(pm Pump, st *levels.Structure, byF map[float64]float64) ([]float64, error) {
-	n := len(st.States)
-	w := make([]float64, n)
-	switch pm.Kind {
-	case Isotropic:
-		for i := range w {
-			w[i] = 1
-		}
-	case Anisotropic:
-		j := st.Level.J
-		jj := j * (j + 1)
-		// Normalize 3<m_J^2> - J(J+1) by its largest magnitude over m_J so
-		// that |f| <= 1 and p = 1 + Alignment f >= 0 for |Alignment| <= 1.
-		norm := 0.0
-		for m := -j; m <= j+1e-9; m++ {
-			norm = math.Max(norm, math.Abs(3*m*m-jj))
-		}
-		for i, s := range st.States {
-			f := 0.0
-			if norm > 0 {
-				f = (3*s.MJ2 - jj) / norm
-			}
-			w[i] = 1 + pm.Alignment*f
-		}
-	case Hyperfine:
-		for i, s := range st.States {
-			w[i] = 1
-			if v, ok := lookupF(byF, s.F); ok {
-				w[i] = v
-			}
-		}
-	}
-	sum := 0.0
-	for _, v := range w {
-		sum += v
-	}
-	if !(sum > 0) {
-		return nil, fmt.Errorf("transfer: pump weights of the J=%g level sum to %g: nothing is pumped", st.Level.J, sum)
-	}
-	for i := range w {
-		// Clamp the tiny negatives that rounding of <m_J^2> can give.
-		w[i] = math.Max(0, w[i]*float64(n)/sum)
-	}
-	return w, nil
-}
-
-// lookupF finds the weight of label f allowing for rounding of half-integers.
-func lookupF(m map[float64]float64, f float64) (float64, bool) {
-	if v, ok := m[f]; ok {
-		return v, true
-	}
-	for k, v := range m {
-		if math.Abs(k-f) < 1e-6 {
-			return v, true
-		}
-	}
-	return 0, false
 }
