@@ -502,6 +502,7 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 		par := &m.Params
 		par.Species = pd.species
 		par.Pump = transfer.Pump{Kind: kind, UpperF: pd.weights["pump.upper_f"], LowerF: pd.weights["pump.lower_f"]}
+		par.Population = transfer.PopulationModel(indexOf(populationModels, pd.str["populations.model"]))
 		for _, s := range specs {
 			if x, ok := vals[s.path()]; ok && s.set != nil {
 				s.set(par, x)
@@ -636,6 +637,7 @@ var paramKeys = map[string]string{
 	"ElectronDensity": "faraday.electron_density", "GainLength": "faraday.gain_length",
 	"Saturation": "column.saturation", "Gain": "column.gain", "CheckpointsPerDecade": "column.checkpoints_per_decade",
 	"FirstCheckpoint": "column.first_checkpoint", "Tolerance": "column.tolerance",
+	"Population": "populations.model", "CoherenceThreshold": "populations.coherence_threshold",
 }
 
 func defaultName(file string) string {

@@ -126,11 +126,14 @@ const deg = math.Pi / 180
 // Pump kinds, in the order of transfer.PumpKind.
 var pumpKinds = []string{"isotropic", "anisotropic", "hyperfine"}
 
+// Population models, in the order of transfer.PopulationModel.
+var populationModels = []string{transfer.Auto.String(), transfer.Rates.String(), transfer.Density.String()}
+
 // Figure formats gonum/plot writes.
 var figureFormats = []string{"png", "svg", "pdf", "eps"}
 
 // tables lists the tables of the schema in reference order; "" is the top level.
-var tables = []string{"", "field", "line", "rates", "beam", "pump", "seed", "faraday", "column", "output"}
+var tables = []string{"", "field", "line", "rates", "beam", "pump", "seed", "faraday", "populations", "column", "output"}
 
 // Defaults of the decay rates, beaming, seed and column come from the
 // transfer package's Default constants, where their sources are given.
@@ -213,6 +216,13 @@ func schema() []*spec {
 		{table: "faraday", name: "gain_length", typ: tQuantity, kind: units.Length, unit: "au", column: "gain_length_au", example: `"1 au"`,
 			min: 0, minOpen: true, max: 1e20, doc: "path over which the unsaturated gain grows by one e-fold (required when electron_density > 0)",
 			set: func(p *transfer.Params, x float64) { p.GainLength = x }},
+
+		{table: "populations", name: "model", typ: tEnum, enum: populationModels, def: `"auto"`,
+			doc: "population model: \"rates\" (populations only, valid for R << g Omega), \"density\" (Zeeman coherences, any R/g Omega) or \"auto\" (rates until R/g Omega reaches 1e-3, then the density matrix)"},
+		{table: "populations", name: "coherence_threshold", typ: tNumber, column: "coherence_threshold",
+			def: floatText(transfer.DefaultCoherenceThreshold), min: 1, max: 1e6,
+			doc: "keep the coherence of two sublevels of one level whose splitting (rate units) is below this times the target saturation",
+			set: func(p *transfer.Params, x float64) { p.CoherenceThreshold = x }},
 
 		{table: "column", name: "saturation", typ: tNumber, column: "saturation",
 			def: floatText(transfer.DefaultSaturation), min: 0, minOpen: true, max: 1e12, doc: "stop when R/Gamma at line centre reaches this (default unless gain is given)",

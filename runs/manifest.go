@@ -12,6 +12,7 @@ import (
 	"github.com/BurntSushi/toml"
 
 	"maserpol/config"
+	"maserpol/transfer"
 )
 
 // Manifest is manifest.json of a run directory.
@@ -25,6 +26,10 @@ type Manifest struct {
 	Finished    string `json:"finished,omitempty"`
 	Shard       string `json:"shard,omitempty"`
 	Determinism string `json:"determinism"`
+	// PopulationModel is the population model of the study's models
+	// (populations.model: auto, rates or density); the tables say per
+	// checkpoint which one gave it.
+	PopulationModel string `json:"population_model"`
 	// Seeds are the seeds of the random sweeps in the config, by key.
 	Seeds map[string]int64 `json:"seeds"`
 	// ParameterColumns lists the parameter columns of the tables, in
@@ -78,6 +83,7 @@ func newManifest(st *config.Study, l layout, sh Shard, now time.Time) *Manifest 
 		Started:          stamp(now),
 		Shard:            sh.String(),
 		Determinism:      determinismNote,
+		PopulationModel:  populationModelOf(st),
 		Seeds:            seedsOf(st.Resolved),
 		Study:            studyName(st.Resolved),
 		ParameterColumns: append([]string{}, l.params...),
@@ -194,4 +200,12 @@ func jsonEncode(w *bytes.Buffer, m Manifest) error {
 	data, err := json.MarshalIndent(m, "", "  ")
 	w.Write(data)
 	return err
+}
+
+// populationModelOf returns the population model of the study's models.
+func populationModelOf(st *config.Study) string {
+	if len(st.Models) == 0 {
+		return transfer.Auto.String()
+	}
+	return st.Models[0].Params.Population.String()
 }

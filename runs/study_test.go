@@ -408,7 +408,7 @@ func TestValidityWarning(t *testing.T) {
 	rep := execute(t, st, t.TempDir(), Options{})
 	// synthetic: R/gOmega = sat/(100 B[G]) at sat = 0.01 ... 100; B = 10 mG
 	// gives g Omega = 1 s^-1, R/gOmega = 1 at sat 1 and 100 at sat 100.
-	want := "R/gOmega exceeds 0.1 from R/Gamma = 1 on (g Omega = 1 s^-1, max R/gOmega = 100;"
+	want := "R/gOmega exceeds 0.1 from R/Gamma = 1 on with the populations-only model (g Omega = 1 s^-1, max R/gOmega = 100;"
 	if len(rep.Warnings) == 0 || !strings.Contains(rep.Warnings[0].Msg, want) {
 		t.Errorf("warnings %+v, want %q", rep.Warnings, want)
 	}

@@ -20,7 +20,7 @@ import (
 const ValidLimit = transfer.ValidLimit
 
 // validityNote is written into every table that carries model results.
-const validityNote = "populations-only model (no coherences between Zeeman eigenstates): valid where R/(g Omega) <= 0.1; rows with valid = False are outside that regime"
+const validityNote = "population = rates (no coherences between Zeeman eigenstates): valid where R/(g Omega) <= 0.1; population = density (Zeeman coherences kept, any R/(g Omega)): valid where the flat-spectrum measure flat_spectrum <= 0.01; rows with valid = False are outside their model's regime"
 
 // Fixed summary columns. The parameter columns (B_mG, theta_deg, chi_deg
 // and the swept ones) go between the head and the tail.
@@ -41,8 +41,11 @@ var (
 		{Name: "qb", Datatype: ecsv.Float64, Description: "Q/I at the peak in the field frame, > 0 for polarization parallel to the projected field"},
 		{Name: "pv", Datatype: ecsv.Float64, Description: "circular polarization (V_max - V_min)/I_peak"},
 		{Name: "vi_peak", Datatype: ecsv.Float64, Description: "V/I at the peak channel (IAU V = RCP - LCP)"},
-		{Name: "r_over_gomega", Datatype: ecsv.Float64, Description: "stimulated rate over Zeeman splitting R/(g Omega); the model is valid where <= 0.1"},
-		{Name: "valid", Datatype: ecsv.Bool, Description: "True where R/(g Omega) <= 0.1 (populations-only regime)"},
+		{Name: "ub", Datatype: ecsv.Float64, Description: "U/I at the peak in the field frame: nonzero only with Zeeman coherences (the EVPA turned away from the projected field)"},
+		{Name: "r_over_gomega", Datatype: ecsv.Float64, Description: "stimulated rate over Zeeman splitting R/(g Omega); the populations-only model is valid where <= 0.1"},
+		{Name: "population", Datatype: ecsv.String, Description: "population model that gave this checkpoint: rates (populations only) or density (Zeeman coherences)"},
+		{Name: "flat_spectrum", Datatype: ecsv.Float64, Description: "flat-spectrum measure of the kept coherences (0 for rates); the density matrix is valid where <= 0.01"},
+		{Name: "valid", Datatype: ecsv.Bool, Description: "True where the model of this checkpoint holds: rates, R/(g Omega) <= 0.1; density, flat_spectrum <= 0.01"},
 	}
 	spectrumColumns = []ecsv.Column{
 		{Name: "checkpoint", Datatype: ecsv.Int64, Description: "checkpoint index, matches summary.csv"},
@@ -52,8 +55,8 @@ var (
 		{Name: "Q", Unit: "K", Datatype: ecsv.Float64, Description: "Stokes Q, sky frame (north-south electric vector positive)"},
 		{Name: "U", Unit: "K", Datatype: ecsv.Float64, Description: "Stokes U, sky frame (IAU)"},
 		{Name: "V", Unit: "K", Datatype: ecsv.Float64, Description: "Stokes V, IAU (RCP - LCP)"},
-		{Name: "r_over_gomega", Datatype: ecsv.Float64, Description: "R/(g Omega) at this checkpoint (repeated on each of its rows); the model is valid where <= 0.1"},
-		{Name: "valid", Datatype: ecsv.Bool, Description: "True where R/(g Omega) <= 0.1 at this checkpoint (populations-only regime)"},
+		{Name: "r_over_gomega", Datatype: ecsv.Float64, Description: "R/(g Omega) at this checkpoint (repeated on each of its rows)"},
+		{Name: "valid", Datatype: ecsv.Bool, Description: "True where the model of this checkpoint holds (see the summary's population and valid columns)"},
 	}
 )
 
@@ -202,6 +205,10 @@ func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model,
 	} else {
 		meta = append(meta, ecsv.Meta{Key: "status", Value: StatusDone})
 		meta = append(meta, ecsv.Meta{Key: "gomega_per_s", Value: strconv.FormatFloat(tr.GOmega, 'g', -1, 64)})
+		meta = append(meta, ecsv.Meta{Key: "population_model", Value: tr.Population.String()})
+		if !math.IsInf(tr.CoherentFrom, 1) {
+			meta = append(meta, ecsv.Meta{Key: "density_matrix_from_saturation", Value: strconv.FormatFloat(tr.CoherentFrom, 'g', -1, 64)})
+		}
 		for i, w := range modelWarnings(tr) {
 			meta = append(meta, ecsv.Meta{Key: "warning" + strconv.Itoa(i+1), Value: w})
 		}
@@ -218,7 +225,7 @@ func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model,
 				w.Float(x)
 			}
 			w.Int(k).Float(cp.Saturation).Float(cp.Gain).Float(cp.TbdOmega).Float(cp.IPeak).Float(cp.Ml).Float(cp.MlInt).
-				Float(units.In(cp.EVPA, units.Angle, "deg")).Float(cp.Qb).Float(cp.PV).Float(cp.VIPeak).Float(cp.RoverGOmega).Bool(cp.Valid)
+				Float(units.In(cp.EVPA, units.Angle, "deg")).Float(cp.Qb).Float(cp.PV).Float(cp.VIPeak).Float(cp.Ub).Float(cp.RoverGOmega).String(populationOf(cp)).Float(cp.FlatSpectrum).Bool(cp.Valid)
 			if err := w.End(); err != nil {
 				return err
 			}
@@ -261,3 +268,11 @@ func writeSpectrum(buf io.Writer, st *config.Study, m *config.Model, tr *transfe
 type contentError struct{ err error }
 
 func (e *contentError) Error() string { return e.err.Error() }
+
+// populationOf names the population model that gave a checkpoint.
+func populationOf(cp transfer.Checkpoint) string {
+	if cp.Coherent {
+		return transfer.Density.String()
+	}
+	return transfer.Rates.String()
+}

@@ -36,7 +36,7 @@ func j10(g, field float64) *levels.Transition {
 		States: []levels.State{{Energy: 0, M: 0, F: 0, F1: 0, MJ2: 0, Vector: []float64{1}}}}
 	tr := &levels.Transition{Species: sp, Field: field, Upper: up, Lower: lo}
 	for i, s := range up.States {
-		tr.Lines = append(tr.Lines, levels.Line{Upper: i, Lower: 0, Q: int(s.M), Offset: s.Energy, Strength: 1})
+		tr.Lines = append(tr.Lines, levels.Line{Upper: i, Lower: 0, Q: int(s.M), Offset: s.Energy, Strength: 1, Amplitude: 1})
 	}
 	return tr
 }

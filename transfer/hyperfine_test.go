@@ -279,8 +279,10 @@ func TestHyperfineVSaturated(t *testing.T) {
 		}
 		return comps[compOf[i]].SplitHzPerG * b
 	}
+	// Populations only: this checks the V of section 4's rate equations
+	// (the density matrix has its own tests in coherence_test.go).
 	p := Params{Theta: deg(30), Temperature: 800, Saturation: 1e3, Channels: 128, CheckpointsPerDecade: 2,
-		GammaUpper: 1e-3, GammaLower: 1e-3}
+		GammaUpper: 1e-3, GammaLower: 1e-3, Population: Rates}
 	runModel := func(name string, tr *levels.Transition) (*Model, *Trajectory) {
 		m, err := NewModel(tr, p)
 		if err != nil {

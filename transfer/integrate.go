@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"strings"
 )
 
 // Step-control constants (common practice for embedded-pair control).
@@ -17,15 +18,15 @@ const (
 
 // advance sets dst = exp(K h) src channel by channel with K from
 // (eI, eQ, eV) and the Faraday term.
-func (m *Model) advance(dst, src *[4][]float64, eI, eQ, eV []float64, h float64) {
+func (m *Model) advance(dst, src *[4][]float64, eI, eQ, eU, eV []float64, h float64) {
 	rv := m.rhoV
 	for k := 0; k < m.n; k++ {
 		x := [4]float64{src[0][k], src[1][k], src[2][k], src[3][k]}
 		var y [4]float64
 		if rv == 0 {
-			y = applyNoRho(eI[k], eQ[k], 0, eV[k], h, x)
+			y = applyNoRho(eI[k], eQ[k], eU[k], eV[k], h, x)
 		} else {
-			y = applyGeneral(Propagation{EtaI: eI[k], EtaQ: eQ[k], EtaV: eV[k], RhoV: rv}, h, x)
+			y = applyGeneral(Propagation{EtaI: eI[k], EtaQ: eQ[k], EtaU: eU[k], EtaV: eV[k], RhoV: rv}, h, x)
 		}
 		dst[0][k], dst[1][k], dst[2][k], dst[3][k] = y[0], y[1], y[2], y[3]
 	}
@@ -39,11 +40,11 @@ func (m *Model) advance(dst, src *[4][]float64, eI, eQ, eV []float64, h float64)
 // returns the error in units of the allowed one and the worst channel.
 func (m *Model) step(pos, h float64) (float64, int, error) {
 	c, md, e := m.cur, m.mid, m.end
-	m.advance(&md.st, &c.st, c.eI, c.eQ, c.eV, h/2)
+	m.advance(&md.st, &c.st, c.eI, c.eQ, c.eU, c.eV, h/2)
 	if err := m.populate(md, pos+h/2); err != nil {
 		return 0, 0, err
 	}
-	m.advance(&e.st, &c.st, md.eI, md.eQ, md.eV, h)
+	m.advance(&e.st, &c.st, md.eI, md.eQ, md.eU, md.eV, h)
 	if err := m.populate(e, pos+h); err != nil {
 		return 0, 0, err
 	}
@@ -52,10 +53,10 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 	rv := m.rhoV
 	for k := 0; k < m.n; k++ {
 		x := [4]float64{c.st[0][k], c.st[1][k], c.st[2][k], c.st[3][k]}
-		kt := Propagation{EtaI: (c.eI[k] + e.eI[k]) / 2, EtaQ: (c.eQ[k] + e.eQ[k]) / 2, EtaV: (c.eV[k] + e.eV[k]) / 2, RhoV: rv}
+		kt := Propagation{EtaI: (c.eI[k] + e.eI[k]) / 2, EtaQ: (c.eQ[k] + e.eQ[k]) / 2, EtaU: (c.eU[k] + e.eU[k]) / 2, EtaV: (c.eV[k] + e.eV[k]) / 2, RhoV: rv}
 		var t [4]float64
 		if rv == 0 {
-			t = applyNoRho(kt.EtaI, kt.EtaQ, 0, kt.EtaV, h, x)
+			t = applyNoRho(kt.EtaI, kt.EtaQ, kt.EtaU, kt.EtaV, h, x)
 		} else {
 			t = applyGeneral(kt, h, x)
 		}
@@ -75,10 +76,15 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 			worst, wk = err, k
 		}
 	}
-	// Population change, relative to the unsaturated central inversion (1).
+	// Population change, relative to the unsaturated central inversion
+	// (1): the line inversions, and the coherences when both ends have them.
 	dp := 0.0
-	for i, d := range e.dn {
-		d -= c.dn[i]
+	nsrc := len(m.lines) * m.stride
+	if c.coherent && e.coherent {
+		nsrc = len(e.src)
+	}
+	for i, d := range e.src[:nsrc] {
+		d -= c.src[i]
 		if d > dp {
 			dp = d
 		} else if -d > dp {
@@ -97,11 +103,13 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 func (m *Model) Run(ctx context.Context) (*Trajectory, error) {
 	p := &m.p
 	m.steps, m.rej, m.clamped = 0, 0, 0
+	m.csOn, m.csFrom = false, math.Inf(1)
 	tr := &Trajectory{
 		Velocity:           append([]float64(nil), m.v...),
 		GOmega:             m.gOmega,
 		SaturationTbdOmega: m.tsat,
 		Warnings:           append([]string(nil), m.warnings...),
+		Population:         p.Population,
 	}
 	// Start: the seed in every channel, populations consistent with it.
 	for s := 0; s < 4; s++ {
@@ -208,6 +216,10 @@ func (m *Model) Run(ctx context.Context) (*Trajectory, error) {
 		}
 	}
 	tr.Steps, tr.Rejected = m.steps, m.rej
+	tr.CoherentFrom = m.csFrom
+	if m.csOn && tr.CoherentFrom <= tr.SeedSaturation {
+		tr.CoherentFrom = 0
+	}
 	if m.clamped > 0 {
 		tr.Warnings = append(tr.Warnings, fmt.Sprintf(
 			"the channel grid under-resolves the line (%.2g channels per Doppler width): interpolated stimulated rates went negative %d times and were set to zero, so energy is conserved only approximately; use more channels",
@@ -285,6 +297,7 @@ func (m *Model) checkpoint(pos float64) Checkpoint {
 	cp.TbdOmega = ip * m.tsat
 	cp.Ml = math.Hypot(st[1][kp], st[2][kp]) / ip
 	cp.Qb = st[1][kp] / ip
+	cp.Ub = st[2][kp] / ip
 	cp.VIPeak = st[3][kp] / ip
 	cp.EVPA = 0.5 * math.Atan2(cp.U[kp], cp.Q[kp])
 	vmax, vmin := math.Inf(-1), math.Inf(1)
@@ -309,17 +322,38 @@ func (m *Model) checkpoint(pos float64) Checkpoint {
 		cp.MlInt = sm / sw
 	}
 	cp.RoverGOmega = m.cur.sat * m.gamma / m.gOmega
-	cp.Valid = cp.RoverGOmega <= ValidLimit
+	cp.Coherent = m.cur.coherent
+	if cp.Coherent {
+		cp.FlatSpectrum = m.cs.flatness(m.cur.sat)
+		cp.Valid = cp.FlatSpectrum <= FlatLimit
+	} else {
+		cp.Valid = cp.RoverGOmega <= ValidLimit
+	}
 	return cp
 }
 
+// FlatLimit is the largest Checkpoint.FlatSpectrum at which a density-matrix
+// checkpoint counts as valid: the coherences then carry a relative error
+// of the mean-resonance rule below about 1 % (project choice, from the
+// (dv/v_D)^2 order of that rule; physics.md section 8).
+const FlatLimit = 0.01
+
 func (m *Model) validityWarnings(tr *Trajectory) {
-	if m.gOmega == 0 {
+	if m.gOmega == 0 && m.cs == nil {
 		tr.Warnings = append(tr.Warnings, "zero Zeeman splitting (g Omega = 0): the populations-only model is outside its validity (R/gOmega infinite) at every checkpoint")
 		return
 	}
 	if w := ValidityWarning(tr); w != "" {
 		tr.Warnings = append(tr.Warnings, w)
+	}
+	// Where R >~ g Omega, V depends on the frequency rule of the coherence
+	// terms at the level of a few per cent (physics.md section 8, caution 2).
+	for _, cp := range tr.Checkpoints {
+		if cp.Coherent && cp.RoverGOmega >= 0.3 && cp.PV > 0 {
+			tr.Warnings = append(tr.Warnings, fmt.Sprintf("from R/Gamma = %.3g on R/gOmega >= 0.3 with the density matrix: Stokes V (P_V, V/I) carries an uncertainty of a few per cent from the mean-resonance rule of the coherence terms; m_l, q_b and the EVPA do not",
+				cp.Saturation))
+			break
+		}
 	}
 }
 
@@ -328,24 +362,37 @@ func (m *Model) validityWarnings(tr *Trajectory) {
 const ValidLimit = 0.1
 
 // ValidityWarning says from which saturation on a trajectory lies outside
-// the populations-only regime, how far (the largest R/(g Omega)) and at
-// how many checkpoints, or returns "" when every checkpoint is valid or
-// g Omega is zero (which Run reports separately).
+// the validity of the model used there, and why, or returns "" when every
+// checkpoint is valid. Populations-only checkpoints are invalid where
+// R/(g Omega) > ValidLimit (Zeeman coherences neglected); density-matrix
+// checkpoints where the flat-spectrum measure exceeds FlatLimit.
 func ValidityWarning(tr *Trajectory) string {
-	if tr.GOmega == 0 {
-		return ""
-	}
-	n, first, maxR := 0, math.Inf(1), 0.0
+	var rates, flat []Checkpoint
 	for _, cp := range tr.Checkpoints {
-		if !cp.Valid {
-			n++
-			first = math.Min(first, cp.Saturation)
+		switch {
+		case cp.Valid:
+		case cp.Coherent:
+			flat = append(flat, cp)
+		default:
+			rates = append(rates, cp)
 		}
-		maxR = math.Max(maxR, cp.RoverGOmega)
 	}
-	if n == 0 {
-		return ""
+	var msgs []string
+	if len(rates) > 0 && tr.GOmega > 0 {
+		maxR := 0.0
+		for _, cp := range rates {
+			maxR = math.Max(maxR, cp.RoverGOmega)
+		}
+		msgs = append(msgs, fmt.Sprintf("R/gOmega exceeds %g from R/Gamma = %.3g on with the populations-only model (g Omega = %.3g s^-1, max R/gOmega = %.3g; %d of %d checkpoints): Zeeman coherences, neglected by the rate equations, matter there (valid = False in the tables; the density-matrix or automatic population model keeps them)",
+			ValidLimit, rates[0].Saturation, tr.GOmega, maxR, len(rates), len(tr.Checkpoints)))
 	}
-	return fmt.Sprintf("R/gOmega exceeds %g from R/Gamma = %.3g on (g Omega = %.3g s^-1, max R/gOmega = %.3g; %d of %d checkpoints): Zeeman coherences, neglected by the rate equations, matter there (valid = False in the tables)",
-		ValidLimit, first, tr.GOmega, maxR, n, len(tr.Checkpoints))
+	if len(flat) > 0 {
+		maxF := 0.0
+		for _, cp := range flat {
+			maxF = math.Max(maxF, cp.FlatSpectrum)
+		}
+		msgs = append(msgs, fmt.Sprintf("the flat-spectrum measure of the Zeeman coherences exceeds %g from R/Gamma = %.3g on (max %.3g; %d of %d checkpoints): coherent sublevels whose lines lie a sizeable fraction of the Doppler width apart carry the error of the mean-resonance rule (valid = False in the tables)",
+			FlatLimit, flat[0].Saturation, maxF, len(flat), len(tr.Checkpoints)))
+	}
+	return strings.Join(msgs, "; ")
 }

@@ -28,6 +28,7 @@ type line struct {
 	up, lo int
 	q      int     // m_u - m_l
 	s      float64 // strength S_ab
+	amp    float64 // signed dipole amplitude, amp^2 = s (levels.Line.Amplitude)
 	offset float64 // Hz
 	i0     int
 	f      float64
@@ -50,10 +51,15 @@ func bspline4(f float64) [4]float64 {
 
 // state is the radiation and the populations at one point of the column.
 type state struct {
-	st         [4][]float64 // I, Q_f, U_f, V per channel, units of the saturation intensity
-	dn         []float64    // inversions, line-major, padded by Model.pad on each side
-	eI, eQ, eV []float64    // propagation per channel
-	sat        float64      // max over lines of R/Gamma at line centre
+	st [4][]float64 // I, Q_f, U_f, V per channel, units of the saturation intensity
+	// src holds what each velocity class deposits on the channels, slot
+	// by slot and padded by Model.pad on each side: first the inversion
+	// n_a - n_b of every line, then (density matrix only) the coherence
+	// slots of coherent.slots.
+	src            []float64
+	coherent       bool      // src holds density-matrix values (coherence slots valid)
+	eI, eQ, eU, eV []float64 // propagation per channel
+	sat            float64   // max over lines of R/Gamma at line centre
 }
 
 // Model is a saturating polarized maser column for one transition and one
@@ -73,10 +79,18 @@ type Model struct {
 	stride int // n + 2 pad
 
 	lines []line
-	byQ   [3][]int
 	w     [3][3]float64 // 3 x (w_I, w_Q, w_V) by q+1 (physics.md section 3)
+	// etaW holds the (I, Q, U, V) propagation weights of one unit in each
+	// accumulator: 0..2 the diagonal combinations q = -1, 0, +1, then the
+	// real and imaginary parts of (-1,0), (-1,+1), (0,+1) (coherence.go).
+	etaW [numAcc][4]float64
 
+	// The population model: the rate equations, and the density matrix
+	// where the run uses it (cs nil when it never does).
 	rs       *rateSolver
+	cs       *coherent
+	csOn     bool // the density matrix is in use (Auto latches it on)
+	csFrom   float64
 	gamma    float64 // reference decay rate, s^-1
 	kappa    float64 // gain normalization: unsaturated peak EtaI = 1
 	rhoV     float64 // Faraday rotation per unit gain
@@ -87,12 +101,28 @@ type Model struct {
 
 	cur, mid, end *state
 	y             [3][]float64 // 3 w.S per channel by q+1, padded
+	yc            [6][]float64 // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
 	r             []float64    // rates of one class
 	dnl           []float64    // inversions of one class
-	d             [3][]float64 // per-q inversion sums per channel
+	acc           [numAcc][]float64
 	steps, rej    int
 	clamped       int // interpolated rates below zero (under-resolved spectrum)
 }
+
+// numAcc is the number of propagation accumulators (see Model.etaW).
+const numAcc = 9
+
+// AutoCoherenceFrom is the R/(g Omega) from which Auto uses the density
+// matrix. The two models differ by second order in R/(g Omega) (the
+// coherences are first order but enter the absorptive gain squared), so
+// the switch moves q_b and P_V by about 1e-6 (project choice; the limit
+// test checks R/g Omega <= 0.01 to 1e-3).
+const AutoCoherenceFrom = 1e-3
+
+// autoMaxDim is the largest class system (real unknowns) that Auto takes
+// on: above it the direct class solve costs more than a run should, and
+// Auto keeps the rate equations with a warning (Density runs it anyway).
+const autoMaxDim = 300
 
 // NewModel builds a Model for the already-solved transition tr. p.Species
 // and p.Field may be left zero; they are taken from tr. Defaults are
@@ -139,7 +169,23 @@ func (m *Model) warnf(format string, args ...any) {
 	m.warnings = append(m.warnings, fmt.Sprintf(format, args...))
 }
 
+// setup builds the model in four parts: the lines and the channel grid,
+// the polarization weights, the population model, and the physical scales
+// with the gain normalization.
 func (m *Model) setup() error {
+	if err := m.setupGrid(); err != nil {
+		return err
+	}
+	m.setupWeights()
+	if err := m.setupPopulations(); err != nil {
+		return err
+	}
+	return m.setupScales()
+}
+
+// setupGrid selects the lines, lays out the channel grid and couples every
+// line to it.
+func (m *Model) setupGrid() error {
 	p := &m.p
 	sp := p.Species
 	c := float64(constant.LightSpeedInVacuum)
@@ -162,15 +208,14 @@ func (m *Model) setup() error {
 		if l.Q < -1 || l.Q > 1 || l.Upper < 0 || l.Upper >= nU || l.Lower < 0 || l.Lower >= nL {
 			return fmt.Errorf("transfer: species %q: malformed line %+v", sp.Name, l)
 		}
-		if math.IsNaN(l.Offset) || math.IsInf(l.Offset, 0) || math.IsNaN(l.Strength) {
+		if math.IsNaN(l.Offset) || math.IsInf(l.Offset, 0) || math.IsNaN(l.Strength) || math.IsNaN(l.Amplitude) {
 			return fmt.Errorf("transfer: species %q: non-finite line %+v", sp.Name, l)
 		}
-		m.lines = append(m.lines, line{up: l.Upper, lo: l.Lower, q: l.Q, s: l.Strength, offset: l.Offset})
+		m.lines = append(m.lines, line{up: l.Upper, lo: l.Lower, q: l.Q, s: l.Strength, amp: l.Amplitude, offset: l.Offset})
 		vl := -c * l.Offset / nu0 // radio convention: higher frequency, lower velocity
 		vmin, vmax = math.Min(vmin, vl), math.Max(vmax, vl)
 	}
 
-	// Grid.
 	vd := p.Doppler
 	var lo, hi float64
 	if p.Span == 0 {
@@ -210,15 +255,12 @@ func (m *Model) setup() error {
 	kept := m.lines[:0]
 	dropped := 0
 	for _, l := range m.lines {
-		sigma := c * l.offset / (nu0 * m.dv)
-		l.i0 = int(math.Floor(-sigma))
-		l.f = -sigma - float64(l.i0)
-		l.w = bspline4(l.f)
+		l.i0, l.f, l.w = m.placeAt(l.offset)
 		if l.i0 > m.n+1 || l.i0 < -m.n-1 {
 			dropped++
 			continue
 		}
-		xc := jc - sigma
+		xc := jc - c*l.offset/(nu0*m.dv)
 		l.ci = int(math.Floor(xc))
 		l.cf = xc - float64(l.ci)
 		maxI0 = max(maxI0, abs(l.i0))
@@ -233,19 +275,41 @@ func (m *Model) setup() error {
 	}
 	m.pad = maxI0 + 3
 	m.stride = m.n + 2*m.pad
-	for i, l := range m.lines {
-		m.byQ[l.q+1] = append(m.byQ[l.q+1], i)
-	}
+	return nil
+}
 
-	// Polarization weights (physics.md section 3), times 3 so that the
-	// direction-averaged unpolarized rate of an upper state is the scalar
-	// one: <w_I> = 1/3 for every q.
-	st, ct := math.Sin(p.Theta), math.Cos(p.Theta)
+// placeAt returns the coupling of a resonance at frequency offset (Hz) to
+// the grid: class j meets it at channel position j + i0 + f, read with the
+// cubic B-spline weights w (see line).
+func (m *Model) placeAt(offset float64) (i0 int, f float64, w [4]float64) {
+	sigma := float64(constant.LightSpeedInVacuum) * offset / (m.p.Species.Frequency * m.dv)
+	i0 = int(math.Floor(-sigma))
+	f = -sigma - float64(i0)
+	return i0, f, bspline4(f)
+}
+
+// setupWeights sets the polarization weights of physics.md section 3,
+// times 3 so that the direction-averaged unpolarized rate of an upper
+// state is the scalar one (<w_I> = 1/3 for every q), and the propagation
+// weights of every accumulator.
+func (m *Model) setupWeights() {
+	st, ct := math.Sin(m.p.Theta), math.Cos(m.p.Theta)
 	s2, c2 := st*st, ct*ct
 	m.w[1] = [3]float64{3 * s2 / 2, 3 * s2 / 2, 0}
 	m.w[2] = [3]float64{3 * (1 + c2) / 4, -3 * s2 / 4, 3 * ct / 2}
 	m.w[0] = [3]float64{3 * (1 + c2) / 4, -3 * s2 / 4, -3 * ct / 2}
+	for q := 0; q < 3; q++ {
+		m.etaW[q] = etaWeights(q, false, m.p.Theta)
+	}
+	for c := 3; c < 6; c++ {
+		m.etaW[3+2*(c-3)] = etaWeights(c, false, m.p.Theta)
+		m.etaW[4+2*(c-3)] = etaWeights(c, true, m.p.Theta)
+	}
+}
 
+// setupPopulations builds the pump and the population model(s) of the run.
+func (m *Model) setupPopulations() error {
+	p := &m.p
 	// Rates in units of the reference Gamma: the harmonic mean, so that a
 	// two-level line saturates as 1/(1 + 2R/Gamma) for any Gamma_u, Gamma_l.
 	m.gamma = 2 * p.GammaUpper * p.GammaLower / (p.GammaUpper + p.GammaLower)
@@ -264,34 +328,66 @@ func (m *Model) setup() error {
 	for i := range wL {
 		wL[i] *= p.Pump.LowerPump * gU
 	}
+	nU, nL := len(m.tr.Upper.States), len(m.tr.Lower.States)
 	m.rs = newRateSolver(nU, nL, m.lines, gU, gL, wU, wL)
+	m.gOmega = m.zeemanRate()
+	if p.Population == Rates {
+		return nil
+	}
+	cs, err := newCoherent(m, gU, gL, wU, wL, p.Saturation)
+	switch {
+	case err != nil && p.Population == Density:
+		return err
+	case err != nil:
+		m.warnf("the density matrix is not available (%v): the populations-only model is used throughout", err)
+	case p.Population == Auto && cs.dim > autoMaxDim:
+		m.warnf("the density matrix of %s has %d real unknowns per velocity class (automatic model limit %d): the populations-only model is used throughout; set the population model to \"density\" to run it anyway",
+			p.Species.Name, cs.dim, autoMaxDim)
+	default:
+		m.cs = cs
+	}
+	return nil
+}
 
-	// Physical scales.
+// setupScales sets the physical scales, the seed, the workspaces and the
+// gain normalization from the unsaturated populations.
+func (m *Model) setupScales() error {
+	p := &m.p
+	sp := p.Species
+	c := float64(constant.LightSpeedInVacuum)
+	nu0 := sp.Frequency
 	m.tsat = SaturationTbdOmega(nu0, sp.EinsteinA, m.gamma)
 	sj := p.Seed.Tb * p.BeamSolid / m.tsat
 	psi := p.Seed.Angle - p.Chi // seed angle in the field frame
 	m.seed = [4]float64{sj, sj * p.Seed.LinearFraction * math.Cos(2*psi), sj * p.Seed.LinearFraction * math.Sin(2*psi), sj * p.Seed.CircularFraction}
 	if p.ElectronDensity > 0 {
 		lambda := c / nu0
-		bpar := p.Field * 1e-4 * ct // tesla along +k
+		bpar := p.Field * 1e-4 * math.Cos(p.Theta) // tesla along +k
 		m.rhoV = 2 * FaradayCoefficient * p.ElectronDensity * 1e6 * bpar * lambda * lambda * p.GainLength
 	}
-	m.gOmega = m.zeemanRate()
 	if sp.Unverified {
 		m.warnf("species %q has unverified constants", sp.Name)
 	}
 
-	// Workspaces.
 	m.cur, m.mid, m.end = m.newState(), m.newState(), m.newState()
 	for q := range m.y {
 		m.y[q] = make([]float64, m.stride)
-		m.d[q] = make([]float64, m.n)
+	}
+	if m.cs != nil {
+		for i := range m.yc {
+			m.yc[i] = make([]float64, m.stride)
+		}
+	}
+	for i := range m.acc {
+		m.acc[i] = make([]float64, m.n)
 	}
 	m.r = make([]float64, len(m.lines))
 	m.dnl = make([]float64, len(m.lines))
 
-	// Gain normalization from the unsaturated populations.
+	// Gain normalization from the unsaturated populations (no radiation:
+	// both population models give the same, coherence-free state).
 	m.kappa = 1
+	m.csOn = false
 	if err := m.populate(m.cur, 0); err != nil {
 		return err
 	}
@@ -315,11 +411,15 @@ func abs(i int) int {
 }
 
 func (m *Model) newState() *state {
-	s := &state{dn: make([]float64, len(m.lines)*m.stride)}
+	slots := len(m.lines)
+	if m.cs != nil {
+		slots += len(m.cs.slots)
+	}
+	s := &state{src: make([]float64, slots*m.stride)}
 	for i := range s.st {
 		s.st[i] = make([]float64, m.n)
 	}
-	s.eI, s.eQ, s.eV = make([]float64, m.n), make([]float64, m.n), make([]float64, m.n)
+	s.eI, s.eQ, s.eU, s.eV = make([]float64, m.n), make([]float64, m.n), make([]float64, m.n), make([]float64, m.n)
 	return s
 }
 
@@ -364,9 +464,27 @@ func (m *Model) zeemanRate() float64 {
 	return 2 * math.Pi * minSep
 }
 
-// populate solves the rate equations of every velocity class for the
-// radiation st.st, then builds the propagation matrix of every channel and
-// the saturation measure. pos is the position along the column, for errors.
+// useCoherent reports whether the density matrix solves the classes for a
+// radiation of saturation sat, latching Auto on once R/(g Omega) passes
+// AutoCoherenceFrom.
+func (m *Model) useCoherent(sat float64) bool {
+	if m.cs == nil {
+		return false
+	}
+	if m.csOn {
+		return true
+	}
+	if m.p.Population == Density || sat*m.gamma >= AutoCoherenceFrom*m.gOmega {
+		m.csOn = true
+		m.csFrom = sat
+	}
+	return m.csOn
+}
+
+// populate solves every velocity class for the radiation st.st with the
+// population model in use, then builds the propagation matrix of every
+// channel and the saturation measure. pos is the position along the
+// column, for errors.
 func (m *Model) populate(st *state, pos float64) error {
 	n, pad := m.n, m.pad
 	// Weighted Stokes per q: y_q = 3 (w_I I + w_Q Q_f + w_V V). Beyond the
@@ -391,6 +509,10 @@ func (m *Model) populate(st *state, pos float64) error {
 	for _, l := range m.lines {
 		st.sat = math.Max(st.sat, l.s*m.interpY(l.q+1, l.ci, l.cf))
 	}
+	coh := m.useCoherent(st.sat)
+	if coh {
+		m.weightCross(st)
+	}
 	// Populations, class by class.
 	r, dnl := m.r, m.dnl
 	for j := m.jlo; j < m.jhi; j++ {
@@ -407,15 +529,62 @@ func (m *Model) populate(st *state, pos float64) error {
 			}
 			r[i] = rl
 		}
+		if coh {
+			if err := m.cs.solve(m, st, j); err != nil {
+				return m.classError(pos, j, st.sat, err)
+			}
+			continue
+		}
 		if err := m.rs.solve(r, m.phi[j], dnl); err != nil {
-			return &StepError{Position: pos, Channel: j, Velocity: m.v[j], Msg: "population solve failed: " + err.Error()}
+			return m.classError(pos, j, st.sat, err)
 		}
 		for i, d := range dnl {
-			st.dn[i*m.stride+pad+j] = d
+			st.src[i*m.stride+pad+j] = d
 		}
 	}
+	st.coherent = coh
 	m.buildK(st)
 	return nil
+}
+
+// classError reports a failed class solve with its position, class and
+// saturation.
+func (m *Model) classError(pos float64, j int, sat float64, err error) error {
+	model := "rate equations"
+	if m.csOn {
+		model = "density matrix"
+	}
+	msg := fmt.Sprintf("%s of velocity class %d (u = %.4g km/s) at saturation R/Gamma = %.3g: %v", model, j, m.v[j]/1e3, sat, err)
+	if errors.Is(err, errNotPhysical) {
+		msg += " (the mean-resonance rule of the coherence terms is outside its validity here: Zeeman shifts too large against the Doppler width at this saturation; see physics.md section 8)"
+	}
+	return &StepError{Position: pos, Channel: j, Velocity: m.v[j], Msg: msg}
+}
+
+// weightCross fills m.yc with u1^T J conj(u2) per channel for the three
+// cross combinations (-1,0), (-1,+1), (0,+1), continued by the seed.
+func (m *Model) weightCross(st *state) {
+	n, pad := m.n, m.pad
+	for c := 3; c < 6; c++ {
+		wc := stokesWeights(uq(comboQ[c][0], m.p.Theta), uq(comboQ[c][1], m.p.Theta))
+		yr, yi := m.yc[2*(c-3)], m.yc[2*(c-3)+1]
+		at := func(x [4]float64) (float64, float64) {
+			var re, im float64
+			for s := 0; s < 4; s++ {
+				re += real(wc[s]) * x[s]
+				im += imag(wc[s]) * x[s]
+			}
+			return re, im
+		}
+		for k := 0; k < n; k++ {
+			yr[pad+k], yi[pad+k] = at([4]float64{st.st[0][k], st.st[1][k], st.st[2][k], st.st[3][k]})
+		}
+		sr, si := at(m.seed)
+		for k := 0; k < pad; k++ {
+			yr[k], yi[k] = sr, si
+			yr[pad+n+k], yi[pad+n+k] = sr, si
+		}
+	}
 }
 
 // interpY interpolates the weighted Stokes y_q linearly at channel
@@ -428,33 +597,55 @@ func (m *Model) interpY(q, k int, f float64) float64 {
 	return (1-f)*get(k) + f*get(k+1)
 }
 
-// buildK sums the inversions of every line onto the channels it amplifies
-// (the transpose of the rate interpolation) and forms EtaI, EtaQ, EtaV.
+// buildK deposits what every class gives onto the channels it amplifies
+// (the transpose of the rate interpolation) and forms EtaI, EtaQ, EtaU,
+// EtaV from the accumulators.
 func (m *Model) buildK(st *state) {
 	n, pad := m.n, m.pad
-	for q := 0; q < 3; q++ {
-		d := m.d[q]
+	nAcc := 3
+	if st.coherent {
+		nAcc = numAcc
+	}
+	for a := 0; a < nAcc; a++ {
+		d := m.acc[a]
 		for k := range d {
 			d[k] = 0
 		}
-		for _, i := range m.byQ[q] {
-			l := &m.lines[i]
-			// Channel k takes class k - i0 - t with weight w[t+1].
-			base := i*m.stride + pad - l.i0
-			dn := st.dn[base-2 : base+n+1]
-			w0, w1, w2, w3 := l.s*l.w[0], l.s*l.w[1], l.s*l.w[2], l.s*l.w[3]
-			for k := range d {
-				// dn[k+2] is class k - i0; dn[k+3] is t = -1, dn[k] is t = 2.
-				d[k] += w0*dn[k+3] + w1*dn[k+2] + w2*dn[k+1] + w3*dn[k]
-			}
+	}
+	deposit := func(slot, i0 int, w [4]float64, coef float64, d []float64) {
+		// Channel k takes class k - i0 - t with weight w[t+1].
+		base := slot*m.stride + pad - i0
+		src := st.src[base-2 : base+n+1]
+		w0, w1, w2, w3 := coef*w[0], coef*w[1], coef*w[2], coef*w[3]
+		for k := range d {
+			// src[k+2] is class k - i0; src[k+3] is t = -1, src[k] is t = 2.
+			d[k] += w0*src[k+3] + w1*src[k+2] + w2*src[k+1] + w3*src[k]
+		}
+	}
+	for i := range m.lines {
+		l := &m.lines[i]
+		deposit(i, l.i0, l.w, l.s, m.acc[l.q+1])
+	}
+	if st.coherent {
+		nl := len(m.lines)
+		for s := range m.cs.slots {
+			sl := &m.cs.slots[s]
+			pr := &m.cs.pairs[sl.pair]
+			deposit(nl+s, pr.i0, pr.w, sl.coef, m.acc[sl.acc])
 		}
 	}
 	kap := m.kappa
 	for k := 0; k < n; k++ {
-		d0, d1, d2 := m.d[0][k], m.d[1][k], m.d[2][k]
-		st.eI[k] = kap * (m.w[0][0]*d0 + m.w[1][0]*d1 + m.w[2][0]*d2)
-		st.eQ[k] = kap * (m.w[0][1]*d0 + m.w[1][1]*d1 + m.w[2][1]*d2)
-		st.eV[k] = kap * (m.w[0][2]*d0 + m.w[1][2]*d1 + m.w[2][2]*d2)
+		var e [4]float64
+		for a := 0; a < nAcc; a++ {
+			v := m.acc[a][k]
+			w := &m.etaW[a]
+			e[0] += w[0] * v
+			e[1] += w[1] * v
+			e[2] += w[2] * v
+			e[3] += w[3] * v
+		}
+		st.eI[k], st.eQ[k], st.eU[k], st.eV[k] = kap*e[0], kap*e[1], kap*e[2], kap*e[3]
 	}
 }
 

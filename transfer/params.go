@@ -108,6 +108,9 @@ func (p *Params) Defaults() {
 	if p.Seed.Tb == 0 {
 		p.Seed.Tb = DefaultSeedTb
 	}
+	if p.CoherenceThreshold == 0 {
+		p.CoherenceThreshold = DefaultCoherenceThreshold
+	}
 	if p.Doppler == 0 && p.Temperature > 0 && p.Species != nil && p.Species.Mass > 0 {
 		p.Doppler = DopplerWidth(p.Temperature, p.Species.Mass, p.Turbulence)
 	}
@@ -264,6 +267,18 @@ func (p *Params) Validate() error {
 	}
 	if p.Tolerance > 0.1 || p.Tolerance < 1e-10 {
 		return &ParamError{Field: "Tolerance", Value: p.Tolerance, Allowed: "1e-10 to 0.1"}
+	}
+	switch p.Population {
+	case Auto, Rates, Density:
+	default:
+		return &ParamError{Field: "Population", Value: float64(p.Population), Allowed: "Auto, Rates, Density"}
+	}
+	if err := finite("CoherenceThreshold", p.CoherenceThreshold); err != nil {
+		return err
+	}
+	// Zero is the unset value (Defaults fills it in).
+	if p.CoherenceThreshold != 0 && (p.CoherenceThreshold < 1 || p.CoherenceThreshold > 1e6) {
+		return &ParamError{Field: "CoherenceThreshold", Value: p.CoherenceThreshold, Allowed: "1 to 1e6 (times the largest rate of the run)"}
 	}
 	return nil
 }

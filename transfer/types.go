@@ -1,6 +1,8 @@
 package transfer
 
 import (
+	"fmt"
+
 	"maserpol/levels"
 )
 
@@ -34,6 +36,45 @@ type Pump struct {
 	// equal decay rates only the difference matters; it must stay below
 	// GammaLower/GammaUpper so the unsaturated line is inverted.
 	LowerPump float64
+}
+
+// PopulationModel selects how the populations of a velocity class are
+// computed (physics.md sections 4 and 8).
+type PopulationModel int
+
+const (
+	// Auto uses the rate equations while R/(g Omega) stays below
+	// AutoCoherenceFrom along the column and the density matrix from there
+	// on (the two agree to second order in R/(g Omega) at the switch).
+	Auto PopulationModel = iota
+	// Rates keeps populations only (section 4), valid for R << g Omega.
+	Rates
+	// Density keeps the Zeeman coherences (section 8) along the whole column.
+	Density
+)
+
+// String returns the name used in configs and tables.
+func (pm PopulationModel) String() string {
+	switch pm {
+	case Auto:
+		return "auto"
+	case Rates:
+		return "rates"
+	case Density:
+		return "density"
+	}
+	return fmt.Sprintf("PopulationModel(%d)", int(pm))
+}
+
+// ParsePopulationModel returns the model named s ("auto", "rates" or
+// "density").
+func ParsePopulationModel(s string) (PopulationModel, bool) {
+	for _, pm := range []PopulationModel{Auto, Rates, Density} {
+		if pm.String() == s {
+			return pm, true
+		}
+	}
+	return 0, false
 }
 
 // Seed is the radiation entering the column at s = 0.
@@ -77,6 +118,14 @@ type Params struct {
 	CheckpointsPerDecade int     // default 8
 	FirstCheckpoint      float64 // lowest saturation recorded, default 1e-3
 	Tolerance            float64 // relative local error per step, default 1e-4
+
+	// Population selects the population model (default Auto).
+	Population PopulationModel
+	// CoherenceThreshold is kappa of the coherence set: a pair of
+	// eigenstates of one level keeps its coherence when its splitting (in
+	// rate units) is below kappa x Saturation (default
+	// DefaultCoherenceThreshold; see coherence.go).
+	CoherenceThreshold float64
 }
 
 // Checkpoint is the emergent spectrum and its reported quantities at one
@@ -92,8 +141,19 @@ type Checkpoint struct {
 	Qb          float64 // Q_f/I at the peak, field frame, > 0 parallel to projected B
 	PV          float64 // (V_max - V_min)/I_peak
 	VIPeak      float64 // V/I at the peak channel
-	RoverGOmega float64 // R / (g Omega), populations-only validity (valid when <= 0.1)
-	Valid       bool
+	Ub          float64 // U_f/I at the peak, field frame: nonzero only with Zeeman coherences
+	RoverGOmega float64 // R / (g Omega): the populations-only model holds while it is <= ValidLimit
+	// Coherent is true when the density matrix (Zeeman coherences) gave
+	// this checkpoint, false for the populations-only rate equations.
+	Coherent bool
+	// FlatSpectrum measures the flat-spectrum approximation of the
+	// coherence terms (coherent.flatness; 0 for populations only): valid
+	// while it is <= FlatLimit.
+	FlatSpectrum float64
+	// Valid is true when every approximation of the model used holds:
+	// populations only, R/(g Omega) <= ValidLimit; density matrix,
+	// FlatSpectrum <= FlatLimit.
+	Valid bool
 	// Sky-frame Stokes spectra in K of brightness temperature, one per channel.
 	I, Q, U, V []float64
 }
@@ -115,4 +175,9 @@ type Trajectory struct {
 	SeedSaturation float64
 	// Steps and Rejected count accepted and rejected integration steps.
 	Steps, Rejected int
+	// Population is the population model requested; CoherentFrom the
+	// saturation R/Gamma from which the density matrix was used (0 when
+	// it was used from the seed on, +Inf when never).
+	Population   PopulationModel
+	CoherentFrom float64
 }

@@ -68,10 +68,11 @@ func TestRunCancelled(t *testing.T) {
 }
 
 // TestZeroFieldWarns: without a field there is no Zeeman splitting; the
-// output is still finite and the validity warning is given.
+// populations-only output is still finite and the validity warning is
+// given (the density matrix, valid there, is tested in coherence_test.go).
 func TestZeroFieldWarns(t *testing.T) {
 	tr := j10(0.5, 0)
-	tj := run(t, tr, Params{Theta: 1, Doppler: 1000, Saturation: 10})
+	tj := run(t, tr, Params{Theta: 1, Doppler: 1000, Saturation: 10, Population: Rates})
 	c := tj.Checkpoints[len(tj.Checkpoints)-1]
 	if c.Valid || len(tj.Warnings) == 0 || !strings.Contains(strings.Join(tj.Warnings, " "), "g Omega = 0") {
 		t.Errorf("zero field: valid %v, warnings %q", c.Valid, tj.Warnings)
