@@ -58,14 +58,16 @@ type Report struct {
 	Notes             []string // about figures skipped
 	Summary, Manifest string   // paths
 	// Validity counts the checkpoints of the finished models (in this
-	// directory) inside the populations-only regime.
+	// directory) inside the validity of the model that gave them.
 	Validity ValidityStats
 }
 
-// ValidityStats counts checkpoints inside the populations-only regime,
-// R/(g Omega) <= ValidLimit.
+// ValidityStats counts checkpoints inside the validity of their population
+// model (rates: R/(g Omega) <= ValidLimit; density matrix: flat-spectrum
+// measure <= transfer.FlatLimit) and those given by the density matrix.
 type ValidityStats struct {
 	Checkpoints, Valid int
+	Density            int     // checkpoints given by the density matrix
 	MaxRoverGOmega     float64 // largest R/(g Omega) over all checkpoints
 }
 
@@ -449,10 +451,17 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 		if err != nil {
 			return vs, err
 		}
+		pop, err := t.Strings("population")
+		if err != nil {
+			return vs, err
+		}
 		for i := range r {
 			vs.Checkpoints++
 			if ok[i] {
 				vs.Valid++
+			}
+			if pop[i] == transfer.Density.String() {
+				vs.Density++
 			}
 			// NaN (no field) counts as unbounded.
 			if math.IsNaN(r[i]) || r[i] > vs.MaxRoverGOmega {

@@ -125,3 +125,30 @@ func BenchmarkLines(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkH2ODemo runs one model of the water demo (h2o-22 at 300 mG,
+// theta 60 deg, v_D 0.6 km/s, 256 channels, to R/Gamma = 30) with the
+// automatic population model, for profiling the density-matrix path.
+func BenchmarkH2ODemo(b *testing.B) {
+	sp, err := species.Preset("h2o-22")
+	if err != nil {
+		b.Fatal(err)
+	}
+	tr, err := levels.NewTransition(sp, 0.3)
+	if err != nil {
+		b.Fatal(err)
+	}
+	m, err := NewModel(tr, Params{Theta: deg(60), Doppler: 600, Saturation: 30, CheckpointsPerDecade: 4, FirstCheckpoint: 0.01})
+	if err != nil {
+		b.Fatal(err)
+	}
+	if m.cs != nil {
+		b.Logf("density matrix: %d unknowns, %d stencil entries, %d pairs, %d slots", m.cs.dim, len(m.cs.entries), len(m.cs.pairs), len(m.cs.slots))
+	}
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := m.Run(context.Background()); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

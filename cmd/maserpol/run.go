@@ -11,6 +11,7 @@ import (
 
 	"maserpol/config"
 	"maserpol/runs"
+	"maserpol/transfer"
 )
 
 func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
@@ -111,10 +112,11 @@ func printReport(w io.Writer, rep *runs.Report) {
 	}
 }
 
-// validityLine says how much of a study lies inside the populations-only
-// regime.
+// validityLine says how much of a study lies inside the validity of its
+// population models.
 func validityLine(v runs.ValidityStats) string {
-	return fmt.Sprintf("%d of %d checkpoints within R/gOmega <= %g (max R/gOmega = %.3g)", v.Valid, v.Checkpoints, runs.ValidLimit, v.MaxRoverGOmega)
+	return fmt.Sprintf("%d of %d checkpoints valid (%d from the density matrix, valid where the flat-spectrum measure <= %g; %d from the rate equations, valid where R/gOmega <= %g; max R/gOmega = %.3g)",
+		v.Valid, v.Checkpoints, v.Density, transfer.FlatLimit, v.Checkpoints-v.Density, runs.ValidLimit, v.MaxRoverGOmega)
 }
 
 // figureKinds lists the distinct figure names without model prefixes.
