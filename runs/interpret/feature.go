@@ -78,6 +78,7 @@ type FeatureResult struct {
 	UpperLimit  float64 // gauss, DetectSigma bound on |B_los| (every feature)
 	Verdict     FieldVerdict
 	Notes       []string
+	Hanning     bool // channels treated as Hanning-correlated
 }
 
 // ThetaGridMax is the largest angle the factor grid holds: cos theta = 0
@@ -109,7 +110,7 @@ func AnalyzeFeature(ft Feature, g *FactorGrid) (*FeatureResult, error) {
 	if err != nil {
 		return nil, fmt.Errorf("feature %s: %w", ft.Name, err)
 	}
-	r.Fit = fit
+	r.Fit, r.Hanning = fit, ft.Hanning
 
 	// Field angle.
 	thLo, thHi := g.Thetas[0], math.Min(g.Thetas[len(g.Thetas)-1], ThetaGridMax)
