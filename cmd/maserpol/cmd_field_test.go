@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"maserpol/runs/ecsv"
+	"maserpol/runs/interpret"
 )
 
 // coarseGrid keeps the factor grid small in tests: three angles, one
@@ -208,5 +209,17 @@ func TestFieldBadInput(t *testing.T) {
 	code, _, stderr = runCmd(cmdField, append([]string{"sio-v1-j1-0", cp, "--domega", "1e-2 sr", "--out", out}, coarseGrid...)...)
 	if code != 2 || !strings.Contains(stderr, "cat.csv") {
 		t.Errorf("no spectrum or velocity column: exit %d\n%s", code, stderr)
+	}
+}
+
+// TestPrintIntervals: compare's intervals are printed as plain sentences,
+// an unconstrained parameter saying so.
+func TestPrintIntervals(t *testing.T) {
+	var b strings.Builder
+	printIntervals(&b, []interpret.ParamInterval{{Statement: "theta_deg = 70 deg, 68 %: 65..75"}, {Statement: "B_mG is not constrained: every grid value 1..10 mG fits"}})
+	for _, want := range []string{"68 %", "theta_deg = 70 deg", "not constrained", "only inside the grid"} {
+		if !strings.Contains(b.String(), want) {
+			t.Errorf("output lacks %q:\n%s", want, b.String())
+		}
 	}
 }
