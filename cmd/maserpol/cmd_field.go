@@ -331,7 +331,7 @@ func fieldDefaults(tb, domega, sat, theta, ml, mlErr, branch, window string) (in
 func printField(w io.Writer, name string, rows []interpret.FieldRow) {
 	fmt.Fprintf(w, "Field from Stokes V for %s: V = A dI/dv + C I, B cos(theta) = A / factor (full model)\n\n", name)
 	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
-	fmt.Fprintln(tw, "feature\tv (km/s)\tA (m/s)\tB_los (mG)\ttheta (deg)\tB (mG)\tR/Gamma\tR/(g Omega)\tchi2_r\tverdict")
+	fmt.Fprintln(tw, "feature\tv (km/s)\tA (m/s)\tB_los\ttheta (deg)\tB\tR/Gamma\tR/(g Omega)\tchi2_r\tverdict")
 	counts := map[string]int{}
 	for _, fr := range rows {
 		r := fr.Result
@@ -341,9 +341,9 @@ func printField(w io.Writer, name string, rows []interpret.FieldRow) {
 			continue
 		}
 		counts[string(r.Verdict)]++
-		blos := fmt.Sprintf("%s ± %s", g3(r.BLos*1e3), g3(r.BLosErr*1e3))
+		blos := gaussPM(r.BLos, r.BLosErr)
 		if !r.Detected {
-			blos = fmt.Sprintf("|B_los| < %s (3σ)", g3(r.UpperLimit*1e3))
+			blos = fmt.Sprintf("|B_los| < %s (3σ)", gaussText(r.UpperLimit))
 		}
 		th, b := "-", "-"
 		if !math.IsNaN(r.Theta) {
@@ -352,7 +352,7 @@ func printField(w io.Writer, name string, rows []interpret.FieldRow) {
 				th += " (ambiguous)"
 			}
 			if r.Detected {
-				b = fmt.Sprintf("%s ± %s", g3(r.B*1e3), g3(r.BErr*1e3))
+				b = gaussPM(r.B, r.BErr)
 			}
 		}
 		sat := g3(r.SatLo)
@@ -369,4 +369,12 @@ func printField(w io.Writer, name string, rows []interpret.FieldRow) {
 		}
 	}
 	fmt.Fprintf(w, "\nValidity: the populations-only model holds where R/(g Omega) <= 0.1; detection: |A| >= 3 sigma_A; poor fit: chi-square probability < 0.001.\n")
+}
+
+// gaussPM writes a field and its error (gauss) in G or mG, one unit for both.
+func gaussPM(b, e float64) string {
+	if math.Abs(b) < 1 {
+		return g3(b*1e3) + " ± " + g3(e*1e3) + " mG"
+	}
+	return g3(b) + " ± " + g3(e) + " G"
 }

@@ -1,8 +1,10 @@
 package main
 
 import (
+	"bytes"
 	"encoding/csv"
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -221,5 +223,43 @@ func TestPrintIntervals(t *testing.T) {
 		if !strings.Contains(b.String(), want) {
 			t.Errorf("output lacks %q:\n%s", want, b.String())
 		}
+	}
+}
+
+// TestFieldHyperfineSpectrum: one spectrum of the isolated F=1-1 component
+// of the HCN-like preset (levels: -1177.5 kHz, i.e. +3.983 km/s, splitting
+// -0.71759 m/s per G), invented with the thin-line relation at B = 10 G,
+// theta = 40 deg, far from saturation: field recovers B within 4 sigma
+// and 5 % (the full model's unsaturated factor equals the linear value
+// within 2 %, TestZeemanFactorThinLimit).
+func TestFieldHyperfineSpectrum(t *testing.T) {
+	dir := t.TempDir()
+	s := interpret.SynthLine{Start: 3983 - 4000, Step: 50, Channels: 161, Peak: 50, Center: 3983, Width: 500,
+		B: 10, Theta: 40 * math.Pi / 180, Factor: -0.71759, NoiseI: 0.02, NoiseV: 0.02}
+	o, err := s.Draw(rand.New(rand.NewPCG(4, 4)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := interpret.WriteObserved(&buf, o, nil); err != nil {
+		t.Fatal(err)
+	}
+	spec := filepath.Join(dir, "hydra-w4-f11.ecsv")
+	os.WriteFile(spec, buf.Bytes(), 0o644)
+	out := filepath.Join(dir, "f.ecsv")
+	code, stdout, stderr := runCmd(cmdField, append([]string{"hcn-like-j1-0", spec, "--component", "1-1", "--doppler", "0.5 km/s",
+		"--saturation", "1e-3", "--theta", "40 deg", "--out", out}, append(coarseGrid, "--grid-theta", "30,50 deg")...)...)
+	if code != 0 {
+		t.Fatalf("exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	tab, err := ecsv.ReadFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, _ := tab.Floats("B_mG")
+	e, _ := tab.Floats("B_err_mG")
+	v, _ := tab.Strings("verdict")
+	if len(b) != 1 || math.Abs(b[0]-1e4) > 4*e[0] || math.Abs(b[0]/1e4-1) > 0.05 || v[0] != "ok" {
+		t.Errorf("B = %v +/- %v mG (%v), want 10 G\n%s", b, e, v, stdout)
 	}
 }

@@ -3,6 +3,7 @@ package interpret
 import (
 	"fmt"
 	"math"
+	"strings"
 
 	"maserpol/runs/figures"
 )
@@ -47,13 +48,17 @@ func FeatureFigure(ft Feature, r *FeatureResult) *figures.Stack {
 		{Label: fmt.Sprintf("residual, χ²_r = %.3g", r.Fit.RedChi2()), X: vk, Y: res, Style: 0, Points: true}, w}}
 	title := fmt.Sprintf("%s: B_los = %s (%s)", r.Name, fieldText(r.BLos, r.BLosErr), r.Verdict)
 	if r.Verdict == VerdictNotDetected {
-		title = fmt.Sprintf("%s: |B_los| < %.3g mG (3σ, not detected)", r.Name, r.UpperLimit*1e3)
+		title = fmt.Sprintf("%s: |B_los| < %s (3σ, not detected)", r.Name, strings.Replace(fieldText(r.UpperLimit, 0), " ± 0", "", 1))
 	}
 	return &figures.Stack{Title: title, XLabel: "velocity (km/s)", PanelHeight: 1.0 * 72, Panels: []figures.Panel{pi, pv, pr}}
 }
 
+// fieldText writes a field and its error (gauss) in G or mG.
 func fieldText(b, e float64) string {
-	return fmt.Sprintf("%.3g ± %.2g mG", b*1e3, e*1e3)
+	if math.Abs(b) < 1 {
+		return fmt.Sprintf("%.3g ± %.2g mG", b*1e3, e*1e3)
+	}
+	return fmt.Sprintf("%.3g ± %.2g G", b, e)
 }
 
 // CatalogueFigure draws B_los with 1-sigma error bars against the feature
