@@ -17,6 +17,7 @@ import (
 	"maserpol/levels/species"
 	"maserpol/runs"
 	"maserpol/runs/ecsv"
+	"maserpol/runs/figures"
 	"maserpol/runs/interpret"
 	"maserpol/transfer"
 )
@@ -201,10 +202,14 @@ func cmdField(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	}
 	if *sky != "" {
 		paths, err := interpret.SkyMap(results, "sky map of "+filepath.Base(pos[1])).Save(*sky, []string{"png", "svg", "pdf"})
-		if err != nil {
+		switch {
+		case errors.Is(err, figures.ErrNoData):
+			fmt.Fprintf(stderr, "maserpol: warning: no sky map: no feature has sky offsets (catalogue columns ra_offset_mas, dec_offset_mas)\n")
+		case err != nil:
 			return report(stderr, err)
+		default:
+			fmt.Fprintf(stderr, "maserpol: wrote %s\n", strings.Join(paths, ", "))
 		}
-		fmt.Fprintf(stderr, "maserpol: wrote %s\n", strings.Join(paths, ", "))
 	}
 	bad := 0
 	for i, e := range errs {

@@ -135,13 +135,16 @@ func AnalyzeFeature(ft Feature, g *FactorGrid) (*FeatureResult, error) {
 		r.Notes = append(r.Notes, fmt.Sprintf("theta unknown: B_los uses the factor over theta %.0f..%.0f deg; B not given", thLo*180/math.Pi, thHi*180/math.Pi))
 	}
 	if !math.IsNaN(r.Theta) {
-		thLo = math.Max(thLo, r.Theta-r.ThetaErr)
-		thHi = math.Min(thHi, r.Theta+r.ThetaErr)
+		// The factor A/(B cos theta) is the same at theta and 180 deg -
+		// theta (A changes sign with cos theta): look up the acute angle.
+		look := math.Min(r.Theta, math.Pi-r.Theta)
+		thLo = math.Max(thLo, look-r.ThetaErr)
+		thHi = math.Min(thHi, look+r.ThetaErr)
 		if thHi < thLo { // theta beyond the grid: its edge
-			thLo = math.Min(math.Max(r.Theta, g.Thetas[0]), ThetaGridMax)
+			thLo = math.Min(math.Max(look, g.Thetas[0]), ThetaGridMax)
 			thHi = thLo
 		}
-		if r.Theta > ThetaGridMax {
+		if look > ThetaGridMax {
 			r.Notes = append(r.Notes, fmt.Sprintf("theta %.1f deg: the factor is taken at %.0f deg (cos theta -> 0: V carries little field)", r.Theta*180/math.Pi, ThetaGridMax*180/math.Pi))
 		}
 	}

@@ -283,3 +283,23 @@ func TestFieldFromModelThinLine(t *testing.T) {
 		t.Errorf("B = %.4f +/- %.4f G from a model at 2 G", r.B, r.BErr)
 	}
 }
+
+// TestFieldObtuseTheta: theta and 180 deg - theta give the same |B| with
+// B_los of the same sign (the factor depends on the acute angle; B =
+// B_los/cos(theta) changes sign with cos theta).
+func TestFieldObtuseTheta(t *testing.T) {
+	g := flatGrid(0.8214)
+	s := SynthLine{Start: -10e3, Step: 100, Channels: 201, Peak: 50, Width: 800, B: 5, Theta: 40 * degree, Factor: 0.8214, NoiseI: 0.01, NoiseV: 0.01}
+	o, _ := s.Draw(rand.New(rand.NewPCG(2, 2)))
+	var b [2]float64
+	for i, th := range []float64{40, 140} {
+		r, err := AnalyzeFeature(Feature{Name: "x", Obs: o, SatLo: 0.01, SatHi: 0.01, Theta: th * degree, Ml: math.NaN()}, g)
+		if err != nil {
+			t.Fatal(err)
+		}
+		b[i] = r.B
+	}
+	if math.Abs(b[0]+b[1]) > 1e-9*math.Abs(b[0]) || b[0] <= 0 {
+		t.Errorf("B(40 deg) = %v, B(140 deg) = %v; want equal and opposite, B(40) > 0", b[0], b[1])
+	}
+}
