@@ -303,3 +303,45 @@ func TestFieldObtuseTheta(t *testing.T) {
 		t.Errorf("B(40 deg) = %v, B(140 deg) = %v; want equal and opposite, B(40) > 0", b[0], b[1])
 	}
 }
+
+// TestFactorGridSaturatedTheta: the factor grid carries the saturated
+// behaviour of V with theta (Watson & Wyld 2001, ApJ 558, L55, from
+// memory; also Nedoluha & Watson 1990): at theta = 0 the thin-line factor
+// holds at every saturation (within 1 %: the sigma components alone, no
+// pi), while for g Omega >> R and R/Gamma >~ 100 the factor A/(B
+// cos theta) exceeds the thin-line value more and more as theta grows, so
+// that the standard relation would overestimate B cos(theta) at large
+// angles. Checked:
+// ratio to the linear value within 1 % at 0 deg, rising from 40 to 60 to
+// 75 deg at R/Gamma = 100, and above 2 at 75 deg.
+func TestFactorGridSaturatedTheta(t *testing.T) {
+	sp, err := species.Resolve("sio-v1-j1-0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	base := transfer.Params{Species: sp, Doppler: 1000, GammaUpper: 5, GammaLower: 5}
+	g, f, err := BuildFactorGrid(context.Background(), FieldGridSpec{Base: base, Component: Blend, Thetas: []float64{0, 40 * degree, 60 * degree, 75 * degree}, SatLo: 1e-3, SatHi: 100, CheckpointsPerDecade: 1}, 2, transfer.Run)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, sat := range []float64{1e-3, 1, 100} {
+		if r, _, _, _ := g.At(sat, 0); math.Abs(r/f.Linear-1) > 0.01 {
+			t.Errorf("theta 0, R/Gamma %g: factor/linear = %.4f, want 1 within 1 %%", sat, r/f.Linear)
+		}
+	}
+	var prev float64
+	for _, th := range []float64{40, 60, 75} {
+		r, rgo, _, _ := g.At(100, th*degree)
+		if rgo > 0.1 {
+			t.Fatalf("R/(g Omega) = %.3g at B0: not in the g Omega >> R regime", rgo)
+		}
+		ratio := r / f.Linear
+		if ratio <= prev {
+			t.Errorf("R/Gamma 100: factor/linear %.3f at %g deg, not above %.3f at the smaller angle", ratio, th, prev)
+		}
+		prev = ratio
+	}
+	if prev < 2 {
+		t.Errorf("R/Gamma 100, 75 deg: factor/linear = %.3f, want > 2", prev)
+	}
+}
