@@ -152,6 +152,12 @@ func TestFieldBadInput(t *testing.T) {
 		return ls
 	})
 	edit("single.ecsv", func(ls []string) []string { return ls[:first+1] })
+	edit("badunit.ecsv", func(ls []string) []string {
+		for i := range ls[:first] {
+			ls[i] = strings.Replace(ls[i], "unit: km / s", "unit: Jy", 1)
+		}
+		return ls
+	})
 	edit("noline.ecsv", func(ls []string) []string {
 		for i := first; i < len(ls); i++ {
 			c := strings.Split(ls[i], ",")
@@ -163,7 +169,7 @@ func TestFieldBadInput(t *testing.T) {
 		}
 		return ls
 	})
-	cat := "feature,spectrum,tb [K],ml\nok1,good.ecsv,1e9,0.1\nnan,nan.ecsv,1e9,0.1\nunsorted,unsorted.ecsv,1e9,0.1\ndup,duplicate.ecsv,1e9,0.1\nsingle,single.ecsv,1e9,0.1\nnoline,noline.ecsv,1e9,0.1\nmissing,nowhere.ecsv,1e9,0.1\nbadml,good.ecsv,1e9,1.7\n"
+	cat := "feature,spectrum,tb [K],ml\nok1,good.ecsv,1e9,0.1\nnan,nan.ecsv,1e9,0.1\nunsorted,unsorted.ecsv,1e9,0.1\ndup,duplicate.ecsv,1e9,0.1\nsingle,single.ecsv,1e9,0.1\nnoline,noline.ecsv,1e9,0.1\nmissing,nowhere.ecsv,1e9,0.1\nbadml,good.ecsv,1e9,1.7\nbadunit,badunit.ecsv,1e9,0.1\n"
 	cp := filepath.Join(dir, "cat.csv")
 	os.WriteFile(cp, []byte(cat), 0o644)
 	out := filepath.Join(dir, "f.ecsv")
@@ -179,7 +185,8 @@ func TestFieldBadInput(t *testing.T) {
 		"noline", "no line",
 		"nowhere.ecsv",
 		"cat.csv:9: column ml",
-		"7 of 8 features had bad input",
+		"badunit.ecsv: column velocity_kms",
+		"8 of 9 features had bad input",
 	} {
 		if !strings.Contains(stderr, want) {
 			t.Errorf("stderr lacks %q:\n%s", want, stderr)
@@ -195,7 +202,7 @@ func TestFieldBadInput(t *testing.T) {
 		t.Fatal(err)
 	}
 	v, _ := tab.Strings("verdict")
-	if len(v) != 8 || v[0] == "bad input" || v[1] != "bad input" {
+	if len(v) != 9 || v[0] == "bad input" || v[1] != "bad input" {
 		t.Errorf("verdicts %q: want the good feature measured and the bad ones listed", v)
 	}
 

@@ -206,38 +206,35 @@ func derivative5(v, I []float64, rho []float64) (d, dvar []float64) {
 	for k := 1; k < n && uniform; k++ {
 		uniform = math.Abs(v[k]-v[k-1]-h) <= 1e-6*math.Abs(h)
 	}
-	variance := func(w map[int]float64) float64 {
-		var s float64
-		for i, a := range w {
-			for j, b := range w {
-				l := i - j
-				if l < 0 {
-					l = -l
-				}
-				if l < len(rho) {
-					s += a * b * rho[l]
-				}
-			}
-		}
-		return s
-	}
+	// Stencil offsets and weights per channel; the variance of d[k] is
+	// sum_ij w_i w_j rho_|i-j| (per unit variance of I).
+	var off [4]int
+	var wt [4]float64
 	for k := range d {
-		var w map[int]float64
+		m := 0
 		switch {
 		case uniform && k >= 2 && k < n-2:
 			d[k] = (-I[k+2] + 8*I[k+1] - 8*I[k-1] + I[k-2]) / (12 * h)
-			w = map[int]float64{2: -1 / (12 * h), 1: 8 / (12 * h), -1: -8 / (12 * h), -2: 1 / (12 * h)}
+			off, wt, m = [4]int{2, 1, -1, -2}, [4]float64{-1 / (12 * h), 8 / (12 * h), -8 / (12 * h), 1 / (12 * h)}, 4
 		case k > 0 && k < n-1:
 			dx := v[k+1] - v[k-1]
-			w = map[int]float64{1: 1 / dx, -1: -1 / dx}
+			off, wt, m = [4]int{1, -1}, [4]float64{1 / dx, -1 / dx}, 2
 		case k == 0 && n > 1:
 			dx := v[1] - v[0]
-			w = map[int]float64{1: 1 / dx, 0: -1 / dx}
+			off, wt, m = [4]int{1, 0}, [4]float64{1 / dx, -1 / dx}, 2
 		case n > 1:
 			dx := v[n-1] - v[n-2]
-			w = map[int]float64{0: 1 / dx, -1: -1 / dx}
+			off, wt, m = [4]int{0, -1}, [4]float64{1 / dx, -1 / dx}, 2
 		}
-		dvar[k] = variance(w)
+		var s float64
+		for i := 0; i < m; i++ {
+			for j := 0; j < m; j++ {
+				if l := abs(off[i] - off[j]); l < len(rho) {
+					s += wt[i] * wt[j] * rho[l]
+				}
+			}
+		}
+		dvar[k] = s
 	}
 	return d, dvar
 }
@@ -269,4 +266,11 @@ func LineWindow(v, I []float64, sigmaI float64) ([2]float64, int, error) {
 	pad := max(2, (hi-lo+1)/2)
 	lo, hi = max(0, lo-pad), min(n-1, hi+pad)
 	return [2]float64{v[lo], v[hi]}, pk, nil
+}
+
+func abs(i int) int {
+	if i < 0 {
+		return -i
+	}
+	return i
 }
