@@ -8,6 +8,7 @@ import (
 
 	"maserpol/levels"
 	"maserpol/levels/species"
+	"maserpol/runs/ecsv"
 	"maserpol/transfer"
 )
 
@@ -343,5 +344,50 @@ func TestFactorGridSaturatedTheta(t *testing.T) {
 	}
 	if prev < 2 {
 		t.Errorf("R/Gamma 100, 75 deg: factor/linear = %.3f, want > 2", prev)
+	}
+}
+
+// TestFitZeemanReference: the fit, its independent-channel error and its
+// Hanning sandwich error against testdata/field/check/fit_values.csv,
+// computed with NumPy/SciPy from the equations by fit_reference.py beside
+// it (same spectrum, sigma_V and window). Tolerance 1e-9 relative: the same
+// arithmetic up to round-off.
+func TestFitZeemanReference(t *testing.T) {
+	ref, err := ecsv.ReadFile("../../testdata/field/check/fit_values.csv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	get := func(c string) float64 {
+		x, err := ref.Floats(c)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return x[0]
+	}
+	o, err := ReadObserved("../../testdata/field/spectra/C12-02.ecsv", ReadOptions{Stokes: "IV"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sig := make([]float64, o.Channels())
+	for i := range sig {
+		sig[i] = 0.005
+	}
+	for _, hann := range []bool{false, true} {
+		f, err := FitZeeman(ZeemanFitInput{Velocity: o.Velocity, I: o.Stokes[0], V: o.Stokes[3], SigmaV: sig, Window: [2]float64{-2000, 3800}, Hanning: hann})
+		if err != nil {
+			t.Fatal(err)
+		}
+		wantErr := get("A_err_indep_ms")
+		if hann {
+			wantErr = get("A_err_hanning_ms")
+		}
+		for _, c := range []struct {
+			name      string
+			got, want float64
+		}{{"A", f.A, get("A_ms")}, {"C", f.C, get("C")}, {"sigma_A", f.AErr, wantErr}, {"chi2", f.Chi2, get("chi2")}, {"n", float64(f.N), get("n")}} {
+			if math.Abs(c.got-c.want) > 1e-9*math.Abs(c.want) {
+				t.Errorf("hanning %v: %s = %.12g, SciPy reference %.12g", hann, c.name, c.got, c.want)
+			}
+		}
 	}
 }
