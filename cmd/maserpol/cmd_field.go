@@ -118,6 +118,16 @@ func cmdField(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		name := strings.TrimSuffix(filepath.Base(pos[1]), filepath.Ext(pos[1]))
 		rows = []interpret.CatalogueRow{{Feature: name, Spectrum: pos[1], Tb: nan, Flux: nan, SizeMaj: nan, SizeMin: nan, DOmega: nan, SatLo: nan, SatHi: nan,
 			Ml: nan, MlErr: nan, EVPA: nan, Theta: nan, ThetaErr: nan, X: nan, Y: nan, WinLo: nan, WinHi: nan}}
+		// Without a given angle, m_l and the EVPA come from Q and U at the
+		// I peak when the spectrum has them.
+		if math.IsNaN(d.Theta) && math.IsNaN(d.Ml) {
+			if full, err := interpret.ReadObserved(pos[1], interpret.ReadOptions{VelocityUnit: *vunit, IntensityUnit: *iunit, Stokes: "IQUV"}); err == nil {
+				if m, me, ev, eve, ok := interpret.PeakPolarization(full); ok {
+					rows[0].Ml, rows[0].MlErr, rows[0].EVPA = m, me, ev
+					fmt.Fprintf(stderr, "maserpol: m_l = %.3g +/- %.2g and EVPA = %.1f +/- %.1f deg at the I peak, from Q and U (noise bias removed); theta from GKK\n", m, me, ev*180/math.Pi, eve*180/math.Pi)
+				}
+			}
+		}
 	}
 	feats := make([]interpret.Feature, len(rows))
 	errs := make([]error, len(rows))
@@ -165,6 +175,13 @@ func cmdField(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 			}
 			results[i].Result = res
 		}
+	}
+	gkk := false
+	for _, fr := range results {
+		gkk = gkk || fr.Result != nil && fr.Result.GKK != nil
+	}
+	if gkk && !(sp.Upper.J == 1 && sp.Lower.J == 0 && len(sp.Upper.Spins) == 0 && len(sp.Lower.Spins) == 0) {
+		fmt.Fprintf(stderr, "maserpol: warning: theta from m_l uses the GKK relation of a J = 1-0 line without hyperfine structure; %s (J = %g-%g) has another m_l(theta): treat those angles as indicative, or give --theta\n", sp.Name, sp.Upper.J, sp.Lower.J)
 	}
 	printField(stdout, sp.Name, results)
 	meta := []ecsv.Meta{{Key: "program", Value: "maserpol " + runs.Version}, {Key: "command", Value: "field"}, {Key: "species", Value: sp.Name},

@@ -270,3 +270,43 @@ func TestFieldHyperfineSpectrum(t *testing.T) {
 		t.Errorf("B = %v +/- %v mG (%v), want 10 G\n%s", b, e, v, stdout)
 	}
 }
+
+// TestFieldKestrel9: the invented observation of Kestrel-9
+// (testdata/observed) is a full-model spectrum of SiO at B = 5 G, theta =
+// 70 deg, projected field at 25 deg, R/Gamma = 10 (study.toml, its
+// metadata), with noise. From that one spectrum, with m_l and the EVPA
+// measured from its Q and U, field must return B within 2 sigma of 5 G,
+// theta within 5 deg of 70 (GKK is the R/Gamma >> 1 limit of the same
+// model), and the field perpendicular to the EVPA, which lies within
+// 3 deg of 25 + 90 deg.
+func TestFieldKestrel9(t *testing.T) {
+	dir := t.TempDir()
+	out := filepath.Join(dir, "k.ecsv")
+	code, stdout, stderr := runCmd(cmdField, "sio-v1-j1-0", filepath.Join("..", "..", "testdata", "observed", "kestrel9-sio.ecsv"),
+		"--saturation", "10", "--out", out, "--grid-theta", "45,65,75 deg", "--grid-per-decade", "1", "--workers", "2")
+	if code != 0 {
+		t.Fatalf("exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	tab, err := ecsv.ReadFile(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f := func(c string) float64 {
+		x, err := tab.Floats(c)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return x[0]
+	}
+	orient, _ := tab.Strings("field_vs_evpa")
+	evpa := math.Mod(f("evpa_deg")+180, 180)
+	if b, e := f("B_mG"), f("B_err_mG"); math.Abs(b-5000) > 2*e {
+		t.Errorf("B = %.0f +/- %.0f mG, want 5000", b, e)
+	}
+	if th := f("theta_deg"); math.Abs(th-70) > 5 {
+		t.Errorf("theta = %.1f deg, want 70", th)
+	}
+	if orient[0] != "perpendicular" || math.Abs(evpa-115) > 3 {
+		t.Errorf("field %s to the EVPA %.1f deg; want perpendicular, EVPA 115 deg", orient[0], evpa)
+	}
+}

@@ -391,3 +391,33 @@ func TestFitZeemanReference(t *testing.T) {
 		}
 	}
 }
+
+// TestPeakPolarization: m_l and EVPA at the I peak of a spectrum with
+// known Q and U (worked by hand: Q = 0.3 I cos 2chi, U = 0.3 I sin 2chi,
+// chi = 25 deg), and the first-order noise-bias correction (Wardle &
+// Kronberg 1974): with P = 0.05 and sigma = 0.03 per Stokes parameter the
+// debiased P is sqrt(0.05^2 - 0.03^2) = 0.04.
+func TestPeakPolarization(t *testing.T) {
+	o := &Observed{Velocity: []float64{0, 1, 2}}
+	for k := range o.Use {
+		o.Use[k] = true
+		o.Err[k] = []float64{1e-9, 1e-9, 1e-9}
+	}
+	chi := 25 * degree
+	o.Stokes[0] = []float64{0.5, 1, 0.5}
+	o.Stokes[1] = []float64{0, 0.3 * math.Cos(2*chi), 0}
+	o.Stokes[2] = []float64{0, 0.3 * math.Sin(2*chi), 0}
+	o.Stokes[3] = []float64{0, 0, 0}
+	ml, _, evpa, _, ok := PeakPolarization(o)
+	if !ok || math.Abs(ml-0.3) > 1e-9 || math.Abs(evpa-chi) > 1e-9 {
+		t.Errorf("m_l %v, EVPA %v deg, ok %v; want 0.3, 25 deg", ml, evpa/degree, ok)
+	}
+	o.Stokes[1] = []float64{0, 0.05, 0}
+	o.Stokes[2] = []float64{0, 0, 0}
+	o.Err[1] = []float64{0.03, 0.03, 0.03}
+	o.Err[2] = []float64{0.03, 0.03, 0.03}
+	ml, mlErr, _, _, _ := PeakPolarization(o)
+	if math.Abs(ml-0.04) > 1e-12 || math.Abs(mlErr-0.03) > 1e-12 {
+		t.Errorf("debiased m_l %v +/- %v, want 0.04 +/- 0.03", ml, mlErr)
+	}
+}

@@ -202,3 +202,39 @@ func PerpendicularProbability(ml float64) float64 {
 	dq := 2 / (3 * (1 - m) * (1 - m)) / (2 * cq)
 	return dq / (dp + dq)
 }
+
+// PeakPolarization measures the fractional linear polarization and the
+// EVPA of a full-Stokes spectrum at the channel of peak I:
+//
+//	m_l = sqrt(Q^2 + U^2 - sigma_P^2) / I,   EVPA = atan2(U, Q)/2,
+//
+// with the noise bias of the polarized intensity removed to first order
+// (Wardle & Kronberg 1974; sigma_P^2 = (sigma_Q^2 + sigma_U^2)/2; zero when
+// P is below its noise). The error of m_l is sigma_P / I (P well above its
+// noise) and that of the EVPA sigma_P / (2 P) rad. ok is false when the
+// spectrum lacks Q or U or their errors.
+func PeakPolarization(o *Observed) (ml, mlErr, evpa, evpaErr float64, ok bool) {
+	if !o.Use[0] || !o.Use[1] || !o.Use[2] || o.Err[1] == nil || o.Err[2] == nil {
+		return 0, 0, 0, 0, false
+	}
+	pk := 0
+	for k, x := range o.Stokes[0] {
+		if x > o.Stokes[0][pk] {
+			pk = k
+		}
+	}
+	I, Q, U := o.Stokes[0][pk], o.Stokes[1][pk], o.Stokes[2][pk]
+	if !(I > 0) {
+		return 0, 0, 0, 0, false
+	}
+	sp := math.Sqrt((o.Err[1][pk]*o.Err[1][pk] + o.Err[2][pk]*o.Err[2][pk]) / 2)
+	p2 := Q*Q + U*U - sp*sp
+	p := math.Sqrt(math.Max(p2, 0))
+	ml, mlErr = p/I, sp/I
+	evpa = math.Atan2(U, Q) / 2
+	evpaErr = math.Pi / 2 / math.Sqrt(3) // uniform in [-pi/4, pi/4] when P is noise
+	if p > 0 {
+		evpaErr = math.Min(evpaErr, sp/(2*p))
+	}
+	return ml, mlErr, evpa, evpaErr, true
+}
