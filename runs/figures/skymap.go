@@ -32,7 +32,7 @@ type SkyMap struct {
 	Unit     string // of the offsets, e.g. "mas"
 	Features []SkyFeature
 	// VectorScale is the length (offset units) of a vector with m_l = 1;
-	// 0 chooses 1/4 of the map's size divided by the largest m_l.
+	// 0 chooses 1/8 of the map's size divided by the largest m_l.
 	VectorScale float64
 }
 
@@ -48,10 +48,11 @@ func (m *SkyMap) Save(base string, formats []string) (out []string, err error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", base, err)
 	}
-	const size = 4.5 * vg.Inch
+	const width = 4.5 * vg.Inch
+	const height = width * 1.125 // the y range is 1.125 times the x range
 	for _, f := range formats {
 		path := base + "." + f
-		wt, err := p.WriterTo(size, size, f)
+		wt, err := p.WriterTo(width, height, f)
 		if err != nil {
 			return out, fmt.Errorf("%s: %w", path, err)
 		}
@@ -106,7 +107,7 @@ func (m *SkyMap) plot() (*plot.Plot, error) {
 	}
 	scale := m.VectorScale
 	if scale <= 0 {
-		scale = span / 4 / math.Max(mlMax, 0.05)
+		scale = span / 8 / math.Max(mlMax, 0.05)
 	}
 	fieldLen := span / 12
 	cx, cy := (xmin+xmax)/2, (ymin+ymax)/2
@@ -121,7 +122,8 @@ func (m *SkyMap) plot() (*plot.Plot, error) {
 	// East to the left: the sky as seen.
 	p.X.Scale = plot.InvertedScale{Normalizer: plot.LinearScale{}}
 	p.X.Min, p.X.Max = cx-half, cx+half
-	p.Y.Min, p.Y.Max = cy-half, cy+half
+	// Room at the top for the legend.
+	p.Y.Min, p.Y.Max = cy-half, cy+half*1.25
 
 	seg := func(x, y, pa, length float64, col color.Color, width float64, dashed bool) error {
 		dx, dy := math.Sin(pa)*length/2, math.Cos(pa)*length/2
@@ -162,11 +164,13 @@ func (m *SkyMap) plot() (*plot.Plot, error) {
 	sc.Color = color.Black
 	sc.Radius = vg.Points(1.4)
 	p.Add(sc)
-	// Scale bar: a vector of m_l = 10 % (or the largest round value below
-	// the largest m_l), in the lower right corner (west is right).
-	bar := 0.1
-	for bar*scale > span/2 && bar > 0.01 {
-		bar /= 2
+	// Scale bar: a round m_l near half the largest, in the lower right
+	// corner (west is right).
+	bar := 0.01
+	for _, b := range []float64{0.02, 0.05, 0.1, 0.2, 0.5, 1} {
+		if b <= math.Max(mlMax, 0.01)/2 || b == 0.02 && mlMax < 0.04 {
+			bar = b
+		}
 	}
 	bx, by := cx+half*0.92, cy-half*0.9
 	l, err := plotter.NewLine(plotter.XYs{{X: bx, Y: by}, {X: bx - bar*scale, Y: by}})
@@ -181,11 +185,11 @@ func (m *SkyMap) plot() (*plot.Plot, error) {
 	}
 	lab.TextStyle[0].Font.Size = vg.Points(tickSize)
 	p.Add(lab)
-	p.Legend.Top, p.Legend.Left = true, true
+	p.Legend.Top, p.Legend.Left = true, false
 	p.Legend.TextStyle.Font.Size = vg.Points(tickSize)
 	ev, _ := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}})
 	ev.Color, ev.Width = evpaCol, vg.Points(1.4)
-	p.Legend.Add("EVPA, length ∝ m_l", ev)
+	p.Legend.Add("EVPA (length: m_l)", ev)
 	if anyField {
 		fl, _ := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: 1, Y: 1}})
 		fl.Color, fl.Width = fieldCol, vg.Points(0.8)
@@ -195,6 +199,6 @@ func (m *SkyMap) plot() (*plot.Plot, error) {
 		}
 		p.Legend.Add(text, fl)
 	}
-	p.Legend.ThumbnailWidth = vg.Points(12)
+	p.Legend.ThumbnailWidth = vg.Points(16)
 	return p, nil
 }
