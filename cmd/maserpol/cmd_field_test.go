@@ -222,11 +222,19 @@ func TestFieldBadInput(t *testing.T) {
 }
 
 // TestPrintIntervals: compare's intervals are printed as plain sentences,
-// an unconstrained parameter saying so.
+// an unconstrained parameter saying so, and the posterior refused with
+// its reason on a grid that is not a full product.
 func TestPrintIntervals(t *testing.T) {
+	mk := func(name string, x, y float64, c float64) interpret.RunModel {
+		return interpret.RunModel{Name: name, Params: []interpret.Param{{Name: "theta_deg", Unit: "deg", Value: x}, {Name: "B_mG", Unit: "mG", Value: y}}}
+	}
+	models := []interpret.RunModel{mk("a", 30, 1, 0), mk("b", 50, 1, 0), mk("c", 70, 2, 0)}
+	fit := func(c float64) []interpret.Fit {
+		return []interpret.Fit{{Saturation: 1, Chi2: [4]float64{c}, N: 100, NUsed: 1, RedChi2: c / 97}, {Saturation: 10, Chi2: [4]float64{c + 50}, N: 100, NUsed: 1, RedChi2: (c + 50) / 97}}
+	}
 	var b strings.Builder
-	printIntervals(&b, []interpret.ParamInterval{{Statement: "theta_deg = 70 deg, 68 %: 65..75"}, {Statement: "B_mG is not constrained: every grid value 1..10 mG fits"}})
-	for _, want := range []string{"68 %", "theta_deg = 70 deg", "not constrained", "only inside the grid"} {
+	printIntervals(&b, models, [][]interpret.Fit{fit(150), fit(97), fit(150)})
+	for _, want := range []string{"68 %", "theta_deg = 50 deg", "saturation", "not computed", "not a full product", "only inside the grid"} {
 		if !strings.Contains(b.String(), want) {
 			t.Errorf("output lacks %q:\n%s", want, b.String())
 		}
