@@ -49,6 +49,8 @@ type Feature struct {
 	// measured); Branch fixes the GKK branch or leaves it (AnyBranch).
 	Ml, MlErr float64
 	Branch    Branch
+	// Notes from reading the feature, carried into the result.
+	Notes []string
 }
 
 // FeatureResult is the field of one feature.
@@ -96,7 +98,8 @@ func AnalyzeFeature(ft Feature, g *FactorGrid) (*FeatureResult, error) {
 	if !(ft.SatLo > 0) || ft.SatHi < ft.SatLo {
 		return nil, fmt.Errorf("feature %s: saturation %g..%g (allowed: 0 < lo <= hi)", ft.Name, ft.SatLo, ft.SatHi)
 	}
-	r := &FeatureResult{Name: ft.Name, SatLo: ft.SatLo, SatHi: ft.SatHi, NoiseV: o.ErrFrom[3], Theta: math.NaN(), ThetaErr: math.NaN(), B: math.NaN(), BErr: math.NaN()}
+	r := &FeatureResult{Name: ft.Name, SatLo: ft.SatLo, SatHi: ft.SatHi, NoiseV: o.ErrFrom[3], Theta: math.NaN(), ThetaErr: math.NaN(), B: math.NaN(), BErr: math.NaN(),
+		Notes: append([]string(nil), ft.Notes...)}
 	sigI := median(sortedCopy(o.Err[0]))
 	win, pk, err := LineWindow(o.Velocity, o.Stokes[0], sigI)
 	if err != nil {

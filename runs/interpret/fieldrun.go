@@ -49,6 +49,7 @@ func FeatureFromRow(row CatalogueRow, d FieldDefaults, base transfer.Params) (Fe
 	}
 	if !math.IsNaN(f.Ml) && math.IsNaN(f.MlErr) {
 		f.MlErr = 0
+		f.Notes = append(f.Notes, "m_l without an error: theta is taken as exact (give ml_err)")
 	}
 	if !math.IsNaN(row.WinLo) && !math.IsNaN(row.WinHi) {
 		f.Window = [2]float64{row.WinLo, row.WinHi}
