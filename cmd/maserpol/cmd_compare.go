@@ -60,6 +60,7 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	rk := interpret.Rank(obs, models, opt)
 	printRanking(stdout, obs, rk, *top)
+	printIntervals(stdout, models, interpret.FitSurface(obs, models, opt))
 	for _, r := range rk[:min(*top, len(rk))] {
 		if rg := rgAt(r); rg > interpret.ValidLimit {
 			fmt.Fprintf(stderr, "maserpol: warning: %s at R/Gamma %.3g has R/(g Omega) = %.3g > 0.1: outside the populations-only regime\n", r.Model.Name, r.Best.Saturation, rg)

@@ -49,6 +49,7 @@ func commands() []command {
 		{"compare", compareArgs, compareSummary, cmdCompare},
 		{"diagnose", diagnoseArgs, diagnoseSummary, cmdDiagnose},
 		{"zeeman-factor", zfactorArgs, zfactorSummary, cmdZeemanFactor},
+		{"field", fieldArgs, fieldSummary, cmdField},
 		{"init", "[--species NAME] [FILE]", "write a commented starter config (default maserpol.toml)", cmdInit},
 		{"demo", "[--out DIR] [--workers N]", "run the built-in demonstration studies", cmdDemo},
 		{"version", "", "print the program version", cmdVersion},

@@ -15,6 +15,7 @@
 //	SolidAngle   sr
 //	Density      cm^-3
 //	Length       m
+//	FluxDensity  Jy
 //
 // Unit names are case-sensitive where case carries meaning (mG and MG are
 // not the same field) and accept the usual spellings otherwise ("deg",
@@ -44,6 +45,7 @@ const (
 	SolidAngle
 	Density
 	Length
+	FluxDensity
 )
 
 var kindNames = [...]string{
@@ -58,6 +60,7 @@ var kindNames = [...]string{
 	SolidAngle:    "solid angle",
 	Density:       "number density",
 	Length:        "length",
+	FluxDensity:   "flux density",
 }
 
 func (k Kind) String() string {
@@ -106,6 +109,8 @@ var Table = []Unit{
 	{Angle, []string{"rad", "radian", "radians"}, 1},
 	{Angle, []string{"arcmin"}, math.Pi / (180 * 60)},
 	{Angle, []string{"arcsec"}, math.Pi / (180 * 3600)},
+	{Angle, []string{"mas"}, math.Pi / (180 * 3600e3)},
+	{Angle, []string{"uas", "µas"}, math.Pi / (180 * 3600e6)},
 
 	{Temperature, []string{"K", "kelvin"}, 1},
 	{Temperature, []string{"mK"}, 1e-3},
@@ -129,6 +134,10 @@ var Table = []Unit{
 	{Length, []string{"km"}, 1e3},
 	{Length, []string{"au", "AU"}, au},
 	{Length, []string{"pc"}, pc},
+
+	{FluxDensity, []string{"Jy"}, 1},
+	{FluxDensity, []string{"mJy"}, 1e-3},
+	{FluxDensity, []string{"uJy", "µJy"}, 1e-6},
 
 	{Dimensionless, []string{"", "1"}, 1},
 	{Dimensionless, []string{"%", "percent"}, 1e-2},

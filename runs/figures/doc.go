@@ -7,6 +7,10 @@
 // (e.g. V at theta = 90 deg) is drawn as zero with a note; a figure with
 // nothing to draw is reported as ErrNoData, and drawing never panics.
 //
+// SkyMap is the one figure that is not a stack: feature positions on the
+// sky with east to the left and equal scales, polarization vectors and
+// field directions.
+//
 // The package knows nothing about run directories or physics; callers
 // pass curves in display units. Lines differ in colour and in dash
 // pattern, so figures survive grey-scale printing.

@@ -13,6 +13,11 @@
 //     linear-Zeeman value.
 //   - Compare: shifts and scales every model spectrum of a run directory onto
 //     an observed full-Stokes spectrum and ranks the models by chi-square.
+//   - AnalyzeFeature (maserpol field): fits V = A dI/dv + C I to an observed
+//     feature with errors from the channel noise (Hanning correlation
+//     included, FitZeeman), converts A into B_los with a FactorGrid of the
+//     full model at the feature's saturation and angle, infers the angle
+//     from m_l by GKK 1973 (GKKTheta) and gives a verdict.
 //
 // # Conventions
 //
