@@ -234,16 +234,16 @@ func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
 		fmt.Fprintf(w, "  measured P_V = %s +/- %s\n", pct(m.PV), pct(m.PVErr))
 	}
 	fmt.Fprintf(w, "  saturation R/Gamma = %s .. %s (%s)\n", g3(m.SatLo), g3(m.SatHi), satFrom)
-	fmt.Fprintf(w, "  field of the field cases B = %s G; weak-field cases B = %s mG\n\n", g3(units.In(d.Field, units.Field, "G")), g3(units.In(d.WeakField, units.Field, "mG")))
+	fmt.Fprintf(w, "  field of the field cases B = %s G; weak-field cases B = %s mG / (R/gOmega at R/Gamma = %s), density matrix\n\n", g3(units.In(d.Field, units.Field, "G")), g3(units.In(d.WeakField, units.Field, "mG")), g3(m.SatLo))
 	tw := tabwriter.NewWriter(w, 2, 4, 2, ' ', 0)
 	fmt.Fprintln(tw, "mechanism\tparameter\tconsistent within errors\tm_l reached (branch)\tR/(g Omega)\tvalidity\treproduces")
 	for _, v := range d.Verdicts {
-		valid := "valid (R/gOmega <= 0.1)"
+		valid := "valid"
 		switch {
 		case v.PartlyValid():
-			valid = "partly outside validity (R/gOmega up to " + g3(v.RGOmega.Hi) + ")"
+			valid = "partly outside validity (up to R/Gamma " + g3(v.ValidUpTo) + ")"
 		case !v.Valid:
-			valid = "OUTSIDE validity (R/gOmega > 0.1)"
+			valid = "OUTSIDE validity"
 		}
 		rep := "no"
 		if v.Reproduces {

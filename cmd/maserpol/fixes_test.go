@@ -31,7 +31,7 @@ func TestShortColumnRun(t *testing.T) {
 	if _, err := os.Stat(filepath.Join(d, "plots", "saturation.svg")); err != nil {
 		t.Error(err)
 	}
-	if !strings.Contains(out, "validity: ") || !strings.Contains(out, "checkpoints within R/gOmega <= 0.1 (max R/gOmega = ") {
+	if !strings.Contains(out, "validity: ") || !strings.Contains(out, "checkpoints valid (") || !strings.Contains(out, "max R/gOmega = ") {
 		t.Errorf("no validity line:\n%s", out)
 	}
 	if !strings.Contains(e, "running 1 model\n") {

@@ -55,6 +55,18 @@ type Sample struct {
 	Qb          float64 // Q_f/I at the peak, field frame
 	PV          float64 // (V_max - V_min)/I_peak
 	RoverGOmega float64
+	// Excess is the checkpoint's validity measure over its limit: R/(g
+	// Omega)/ValidLimit for the rate equations, the flat-spectrum measure
+	// over transfer.FlatLimit for the density matrix; valid where <= 1.
+	Excess float64
+}
+
+// excessOf returns Sample.Excess of a checkpoint.
+func excessOf(cp transfer.Checkpoint) float64 {
+	if cp.Coherent {
+		return cp.FlatSpectrum / transfer.FlatLimit
+	}
+	return cp.RoverGOmega / ValidLimit
 }
 
 // Curve is a model's polarization against saturation, in increasing
@@ -76,7 +88,7 @@ func CurveOf(tr *transfer.Trajectory) Curve {
 		if !(sat > 0) {
 			continue
 		}
-		c = append(c, Sample{sat, cp.Ml, cp.Qb, cp.PV, cp.RoverGOmega})
+		c = append(c, Sample{sat, cp.Ml, cp.Qb, cp.PV, cp.RoverGOmega, excessOf(cp)})
 	}
 	sort.SliceStable(c, func(i, j int) bool { return c[i].Saturation < c[j].Saturation })
 	return c
@@ -127,6 +139,7 @@ func (c Curve) At(sat float64) (s Sample, ok bool) {
 		Qb:          lerp(a.Qb, b.Qb),
 		PV:          lerp(a.PV, b.PV),
 		RoverGOmega: lerp(a.RoverGOmega, b.RoverGOmega),
+		Excess:      lerp(a.Excess, b.Excess),
 	}, true
 }
 
@@ -174,16 +187,18 @@ func (iv *Interval) union(o Interval) {
 	iv.extend(o.Hi)
 }
 
-// reach returns the range of the projected polarization p and of R/(g Omega)
-// that a curve takes on the saturation range [lo, hi]. A piecewise-linear
-// function takes its extremes at the nodes, so the nodes decide.
-func (c Curve) reach(b Branch, lo, hi float64) (p, rg, pv Interval, covered bool) {
-	p, rg, pv = emptyInterval(), emptyInterval(), emptyInterval()
+// reach returns the range of the projected polarization p, of R/(g Omega)
+// and of the validity excess that a curve takes on the saturation range
+// [lo, hi]. A piecewise-linear function takes its extremes at the nodes,
+// so the nodes decide.
+func (c Curve) reach(b Branch, lo, hi float64) (p, rg, pv, ex Interval, covered bool) {
+	p, rg, pv, ex = emptyInterval(), emptyInterval(), emptyInterval(), emptyInterval()
 	ss, ok := c.Within(lo, hi)
 	for _, s := range ss {
 		p.extend(s.Project(b))
 		rg.extend(s.RoverGOmega)
 		pv.extend(s.PV)
+		ex.extend(s.Excess)
 	}
-	return p, rg, pv, ok
+	return p, rg, pv, ex, ok
 }

@@ -27,8 +27,10 @@ const (
 	AnisotropicPump
 	// PolarizedSeed: a linearly polarized background amplified by the maser.
 	PolarizedSeed
-	// WeakField: a field so weak that R > g Omega, with anisotropic pumping
-	// about its axis; outside the validity of the populations-only model.
+	// WeakField: a field so weak that R > g Omega (R/(g Omega) from 1 to
+	// 1e3), isotropic pumping: the Zeeman coherences turn the molecules'
+	// symmetry axis from the field towards the line of sight (density
+	// matrix, physics.md section 8).
 	WeakField
 	numMechanisms
 )
@@ -91,10 +93,10 @@ type Grid struct {
 	AnisoThetas   []float64 // field angles for the anisotropic-pumping cases
 	SeedFractions []float64 // seed linear polarization fractions
 	SeedThetas    []float64 // field angles for the seed cases
-	WeakAlign     []float64 // alignments for the weak-field cases (at theta = 90 deg)
-	// WeakRoverGOmega sets the weak field: R/(g Omega) at the lowest
-	// measured saturation (default 10).
-	WeakRoverGOmega float64
+	// WeakRoverGOmega sets the weak fields: R/(g Omega) at the lowest
+	// measured saturation, one field per value (default 1, 10, 100, 1000).
+	WeakRoverGOmega []float64
+	WeakThetas      []float64 // field angles for the weak-field cases
 }
 
 func degs(xs ...float64) []float64 {
@@ -109,7 +111,8 @@ func degs(xs ...float64) []float64 {
 // 0..90 deg in 5 deg steps, 8 alignments (+/-0.01 .. +/-0.3: amplification
 // turns even a few per cent of pump anisotropy into strong polarization) at
 // 3 angles, 4 seed fractions at 2 angles (55 deg, near the angle where the
-// field alone gives none, and 90 deg), 4 weak-field cases: 55 models.
+// field alone gives none, and 90 deg), 4 weak fields (R/(g Omega) = 1 to
+// 1e3 at the lowest measured saturation) at 3 angles: 63 models.
 func DefaultGrid() Grid {
 	var th []float64
 	for i := 0; i <= 18; i++ {
@@ -121,8 +124,8 @@ func DefaultGrid() Grid {
 		AnisoThetas:     degs(30, 60, 90),
 		SeedFractions:   []float64{0.1, 0.3, 0.6, 0.9},
 		SeedThetas:      degs(55, 90),
-		WeakAlign:       []float64{-0.1, -0.01, 0.01, 0.1},
-		WeakRoverGOmega: 10,
+		WeakRoverGOmega: []float64{1, 10, 100, 1000},
+		WeakThetas:      degs(30, 60, 90),
 	}
 }
 
@@ -134,8 +137,8 @@ func QuickGrid() Grid {
 		AnisoThetas:     degs(60, 90),
 		SeedFractions:   []float64{0.3, 0.9},
 		SeedThetas:      degs(90),
-		WeakAlign:       []float64{-0.03, 0.03},
-		WeakRoverGOmega: 10,
+		WeakRoverGOmega: []float64{10},
+		WeakThetas:      degs(60, 90),
 	}
 }
 
@@ -145,6 +148,7 @@ type Case struct {
 	Theta        float64 // rad
 	Alignment    float64
 	SeedFraction float64
+	RoverGOmega  float64 // weak-field cases: R/(g Omega) at the lowest measured saturation
 	Params       transfer.Params
 }
 
@@ -152,8 +156,10 @@ type Case struct {
 func (c Case) Label() string {
 	th := strconv.FormatFloat(c.Theta*180/math.Pi, 'g', 4, 64) + " deg"
 	switch c.Mechanism {
-	case AnisotropicPump, WeakField:
+	case AnisotropicPump:
 		return "alignment " + strconv.FormatFloat(c.Alignment, 'g', 3, 64) + ", theta " + th
+	case WeakField:
+		return "R/gOmega " + strconv.FormatFloat(c.RoverGOmega, 'g', 3, 64) + ", theta " + th
 	case PolarizedSeed:
 		return "seed m_l " + strconv.FormatFloat(c.SeedFraction, 'g', 3, 64) + ", theta " + th
 	}
@@ -162,12 +168,15 @@ func (c Case) Label() string {
 
 // Cases builds the models of a diagnosis from a template. base must carry
 // the species, field (gauss, non-zero), line width and column settings;
-// weakField is the field strength (gauss) of the WeakField cases. The seed
+// weakField is the field strength (gauss) at which R/(g Omega) = 1 at the
+// lowest measured saturation; the WeakField cases use weakField/r for
+// each r of Grid.WeakRoverGOmega. The seed
 // polarization is put along the measured branch (across the projected
 // field when the branch is unknown), since only that orientation can
 // reproduce the measurement.
 func Cases(base transfer.Params, g Grid, b Branch, weakField float64) []Case {
 	var cs []Case
+	var rg float64
 	add := func(m Mechanism, theta, align, seed float64, field float64) {
 		p := base
 		p.Field = field
@@ -187,7 +196,11 @@ func Cases(base transfer.Params, g Grid, b Branch, weakField float64) []Case {
 			p.Seed.LinearFraction = 0
 			p.Seed.CircularFraction = 0
 		}
-		cs = append(cs, Case{Mechanism: m, Theta: theta, Alignment: align, SeedFraction: seed, Params: p})
+		if m == WeakField {
+			// R > g Omega needs the Zeeman coherences throughout.
+			p.Population = transfer.Density
+		}
+		cs = append(cs, Case{Mechanism: m, Theta: theta, Alignment: align, SeedFraction: seed, RoverGOmega: rg, Params: p})
 	}
 	for _, th := range g.Thetas {
 		add(FieldIsotropic, th, 0, 0, base.Field)
@@ -202,8 +215,11 @@ func Cases(base transfer.Params, g Grid, b Branch, weakField float64) []Case {
 			add(PolarizedSeed, th, 0, f, base.Field)
 		}
 	}
-	for _, a := range g.WeakAlign {
-		add(WeakField, math.Pi/2, a, 0, weakField)
+	for _, r := range g.WeakRoverGOmega {
+		for _, th := range g.WeakThetas {
+			rg = r
+			add(WeakField, th, 0, 0, weakField/r)
+		}
 	}
 	return cs
 }
@@ -223,7 +239,16 @@ type Verdict struct {
 	// RGOmega is the range of R/(g Omega) over the measured saturation
 	// range, for the consistent models (all models when none is).
 	RGOmega Interval
-	Valid   bool // RGOmega.Hi <= ValidLimit
+	// Excess is the range of the validity measure over its limit (see
+	// Sample.Excess) for the same models; Valid is Excess.Hi <= 1: every
+	// checkpoint behind the verdict lies inside the validity of the
+	// population model that gave it.
+	Excess Interval
+	Valid  bool
+	// Orientation, for the weak-field mechanism: whether the EVPA of the
+	// consistent models lies parallel or perpendicular to the projected
+	// field ("parallel", "perpendicular", "both", or "" when none is).
+	Orientation string
 	// ValidUpTo is, when not Valid, the saturation R/Gamma up to which
 	// every model behind RGOmega keeps R/(g Omega) <= ValidLimit (NaN when
 	// none does in the measured range): the verdict is then partly
@@ -242,7 +267,7 @@ type Verdict struct {
 // PartlyValid reports whether the verdict's R/(g Omega) range straddles
 // ValidLimit: valid at the low-saturation end, outside it at the high one.
 func (v Verdict) PartlyValid() bool {
-	return !v.Valid && !v.RGOmega.Empty() && v.RGOmega.Lo <= ValidLimit
+	return !v.Valid && !v.Excess.Empty() && v.Excess.Lo <= 1
 }
 
 // CaseResult is the outcome of one case.
@@ -252,7 +277,8 @@ type CaseResult struct {
 	Reach      Interval // projected polarization over the saturation range
 	PV         Interval // P_V over the saturation range
 	RGOmega    Interval
-	Covered    bool // the checkpoints span the whole saturation range
+	Excess     Interval // validity measure over its limit (Sample.Excess)
+	Covered    bool     // the checkpoints span the whole saturation range
 	Consistent bool // reproduces the measurement (m_l, and P_V when given)
 	// ConsistentMl: reproduces m_l alone (equal to Consistent without P_V).
 	ConsistentMl bool
@@ -328,7 +354,7 @@ func Evaluate(m Measurement, results []CaseResult, field, weakField float64) (*D
 			continue
 		}
 		ran++
-		r.Reach, r.RGOmega, r.PV, r.Covered = r.Curve.reach(m.Branch, m.SatLo, m.SatHi)
+		r.Reach, r.RGOmega, r.PV, r.Excess, r.Covered = r.Curve.reach(m.Branch, m.SatLo, m.SatHi)
 		r.ConsistentMl = r.Reach.Lo <= hi && r.Reach.Hi >= lo
 		r.Consistent = r.ConsistentMl
 		if m.HasPV {
@@ -385,7 +411,7 @@ func (c Curve) jointlyConsistent(m Measurement) bool {
 // m_l alone (CaseResult.ConsistentMl), so that the P_V-free answer can be
 // told from the joint one.
 func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
-	v := Verdict{Mechanism: mech, Reach: emptyInterval(), RGOmega: emptyInterval(), ValidUpTo: math.NaN()}
+	v := Verdict{Mechanism: mech, Reach: emptyInterval(), RGOmega: emptyInterval(), Excess: emptyInterval(), ValidUpTo: math.NaN()}
 	switch mech {
 	case FieldIsotropic:
 		v.Parameter = "theta (deg)"
@@ -394,9 +420,10 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 	case PolarizedSeed:
 		v.Parameter = "seed m_l (dimensionless) at theta (deg)"
 	case WeakField:
-		v.Parameter = "alignment (dimensionless), theta 90 deg"
+		v.Parameter = "R/(g Omega) at the lowest measured saturation (dimensionless) at theta (deg)"
 	}
-	all := emptyInterval()
+	all, allEx := emptyInterval(), emptyInterval()
+	var par, perp bool
 	allUpTo, consUpTo := math.Inf(1), math.Inf(1)
 	byKey := map[float64][]float64{} // consistent thetas per alignment or seed fraction
 	for _, r := range rs {
@@ -406,6 +433,7 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 		v.NModels++
 		v.Reach.union(r.Reach)
 		all.union(r.RGOmega)
+		allEx.union(r.Excess)
 		upTo := r.Curve.validUpTo()
 		allUpTo = math.Min(allUpTo, upTo)
 		consistent := r.ConsistentMl
@@ -417,25 +445,43 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 		}
 		v.NConsistent++
 		v.RGOmega.union(r.RGOmega)
+		v.Excess.union(r.Excess)
+		if mech == WeakField {
+			// The orientation over the measured range, from q_b.
+			ss, _ := r.Curve.Within(m.SatLo, m.SatHi)
+			for _, s := range ss {
+				par = par || s.Qb > 0
+				perp = perp || s.Qb < 0
+			}
+		}
 		consUpTo = math.Min(consUpTo, upTo)
 		th := r.Case.Theta * 180 / math.Pi
 		switch mech {
-		case AnisotropicPump, WeakField:
+		case AnisotropicPump:
 			byKey[r.Case.Alignment] = append(byKey[r.Case.Alignment], th)
+		case WeakField:
+			byKey[r.Case.RoverGOmega] = append(byKey[r.Case.RoverGOmega], th)
 		case PolarizedSeed:
 			byKey[r.Case.SeedFraction] = append(byKey[r.Case.SeedFraction], th)
 		}
 	}
 	if v.NConsistent == 0 {
-		v.RGOmega = all
+		v.RGOmega, v.Excess = all, allEx
 		consUpTo = allUpTo
+	}
+	switch {
+	case par && perp:
+		v.Orientation = "both"
+	case par:
+		v.Orientation = "parallel"
+	case perp:
+		v.Orientation = "perpendicular"
 	}
 	var thIv []Interval
 	if mech == FieldIsotropic {
 		thIv = thetaIntervals(rs, m)
 	}
 	v.Reproduces = v.NConsistent > 0 || len(thIv) > 0
-	v.Valid = !v.RGOmega.Empty() && v.RGOmega.Hi <= ValidLimit
 	switch {
 	case v.NModels == 0:
 		v.Consistent = "not run"
@@ -444,7 +490,7 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 		if v.NConsistent == 0 {
 			// Only angles between grid points reproduce it: validity from the
 			// bracketing grid points.
-			v.RGOmega = all
+			v.RGOmega, v.Excess = all, allEx
 			consUpTo = allUpTo
 		}
 	case v.NConsistent == 0:
@@ -462,17 +508,17 @@ func verdictOf(mech Mechanism, rs []CaseResult, m Measurement) Verdict {
 		}
 		v.Consistent = strings.Join(parts, "; ")
 	}
-	v.Valid = !v.RGOmega.Empty() && v.RGOmega.Hi <= ValidLimit
+	v.Valid = !v.Excess.Empty() && v.Excess.Hi <= 1
 	if !v.Valid && consUpTo >= m.SatLo && !math.IsInf(consUpTo, 1) {
 		v.ValidUpTo = math.Min(consUpTo, m.SatHi)
 	}
 	switch {
-	case mech == WeakField:
-		v.Note = "populations-only values, indicative only: coherences neglected; at B -> 0 a single ray under isotropic pumping is unpolarized by symmetry"
+	case mech == WeakField && v.Reproduces && v.Valid:
+		v.Note = fmt.Sprintf("density matrix (Zeeman coherences), R/(g Omega) %.3g..%.3g: the EVPA lies %s to the projected field there", v.RGOmega.Lo, v.RGOmega.Hi, orientationText(v.Orientation))
 	case v.Reproduces && v.PartlyValid():
-		v.Note = fmt.Sprintf("reproduces, but partly outside the populations-only regime: R/(g Omega) up to %.3g, valid for R/Gamma <= %.3g only", v.RGOmega.Hi, v.ValidUpTo)
+		v.Note = fmt.Sprintf("reproduces, but partly outside the validity of its model (%s), valid for R/Gamma <= %.3g only", excessText(v), v.ValidUpTo)
 	case v.Reproduces && !v.Valid:
-		v.Note = "reproduces, but outside the populations-only regime"
+		v.Note = fmt.Sprintf("reproduces, but outside the validity of its model (%s)", excessText(v))
 	case !v.Reproduces && !v.Reach.Empty() && v.Reach.Hi < m.Ml-m.NSigma*m.MlErr:
 		v.Note = "cannot reach the measured polarization on the measured branch"
 	case !v.Reproduces && !v.Reach.Empty() && v.Reach.Lo > m.Ml+m.NSigma*m.MlErr:
@@ -746,15 +792,20 @@ func (d *Diagnosis) conclude() {
 	if field != nil && !field.RGOmega.Empty() {
 		switch {
 		case field.PartlyValid():
-			d.Warnings = append(d.Warnings, fmt.Sprintf("at B = %.4g G the populations-only model is partly outside its validity over %s: R/(g Omega) = %.3g..%.3g, above %g for R/Gamma > %.3g", d.Field, satRange, field.RGOmega.Lo, field.RGOmega.Hi, ValidLimit, field.ValidUpTo))
-		case field.RGOmega.Hi > ValidLimit:
-			d.Warnings = append(d.Warnings, fmt.Sprintf("at B = %.4g G the populations-only model is OUTSIDE its validity over %s: R/(g Omega) up to %.3g > %g", d.Field, satRange, field.RGOmega.Hi, ValidLimit))
+			d.Warnings = append(d.Warnings, fmt.Sprintf("at B = %.4g G the model is partly outside its validity over %s (%s), valid for R/Gamma <= %.3g only", d.Field, satRange, excessText(*field), field.ValidUpTo))
+		case !field.Valid:
+			d.Warnings = append(d.Warnings, fmt.Sprintf("at B = %.4g G the model is OUTSIDE its validity over %s (%s)", d.Field, satRange, excessText(*field)))
 		default:
-			d.Statements = append(d.Statements, fmt.Sprintf("Validity: at B = %.4g G, R/(g Omega) = %.3g..%.3g over %s (populations-only model valid, limit %g).", d.Field, field.RGOmega.Lo, field.RGOmega.Hi, satRange, ValidLimit))
+			d.Statements = append(d.Statements, fmt.Sprintf("Validity: at B = %.4g G, R/(g Omega) = %.3g..%.3g over %s; every checkpoint lies within the validity of its population model (rate equations while R/(g Omega) <= %g, the density matrix with its Zeeman coherences beyond).", d.Field, field.RGOmega.Lo, field.RGOmega.Hi, satRange, ValidLimit))
+		}
+	}
+	for i := range d.Verdicts {
+		if v := &d.Verdicts[i]; v.Mechanism == WeakField && v.Reproduces && v.Orientation != "" {
+			d.Statements = append(d.Statements, fmt.Sprintf("A weak field (R > g Omega, isotropic pumping) also reproduces it: the EVPA then lies %s to the projected field.", orientationText(v.Orientation)))
 		}
 	}
 	d.CannotRuleOut = []string{
-		"coherences between Zeeman sublevels (important where R/(g Omega) > 0.1, not modelled), including the rotation of the symmetry axis that can turn linear into circular polarization",
+		"the dispersive (magneto-optical) terms of the maser line itself, which the density matrix neglects, and Stokes V where R >~ g Omega (a few per cent from the flat-spectrum rule of the coherence terms)",
 		"combinations of mechanisms (each is tested alone) and parameter values between grid points",
 		"Faraday rotation inside or in front of the maser, which changes the EVPA relative to the field and so the branch",
 		"depolarization by a tangled field, several unresolved features or beam averaging: a measurement below a model does not exclude the field",
@@ -800,20 +851,33 @@ func pvStatement(m Measurement, vs []Verdict) string {
 	return head + " (compared at B, the field of the field cases): " + strings.Join(parts, "; ") + "."
 }
 
-// validUpTo returns the saturation at which the curve's R/(g Omega) first
-// exceeds ValidLimit, interpolated in log-log between checkpoints (R/(g
-// Omega) grows as the saturation); +Inf when it never does.
+// validUpTo returns the saturation at which the curve first leaves the
+// validity of its population model (Excess exceeds 1), interpolated in
+// log-log between checkpoints; +Inf when it never does.
 func (c Curve) validUpTo() float64 {
 	for j, s := range c {
-		if !(s.RoverGOmega > ValidLimit) {
+		if !(s.Excess > 1) {
 			continue
 		}
-		if j == 0 || !(c[j-1].RoverGOmega > 0) {
-			return s.Saturation * ValidLimit / s.RoverGOmega
+		if j == 0 || !(c[j-1].Excess > 0) {
+			return s.Saturation / s.Excess
 		}
 		a := c[j-1]
-		t := math.Log(ValidLimit/a.RoverGOmega) / math.Log(s.RoverGOmega/a.RoverGOmega)
+		t := math.Log(1/a.Excess) / math.Log(s.Excess/a.Excess)
 		return a.Saturation * math.Pow(s.Saturation/a.Saturation, t)
 	}
 	return math.Inf(1)
+}
+
+// orientationText phrases Verdict.Orientation.
+func orientationText(o string) string {
+	if o == "both" {
+		return "parallel or perpendicular (depending on theta and saturation)"
+	}
+	return o
+}
+
+// excessText says how far a verdict's models lie from their validity.
+func excessText(v Verdict) string {
+	return fmt.Sprintf("R/(g Omega) %.3g..%.3g; validity measure up to %.3g times its limit", v.RGOmega.Lo, v.RGOmega.Hi, v.Excess.Hi)
 }

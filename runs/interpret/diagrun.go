@@ -124,11 +124,9 @@ func Diagnose(ctx context.Context, spec DiagnoseSpec, workers int, run RunFunc, 
 	if err != nil {
 		return nil, err
 	}
-	wr := spec.Grid.WeakRoverGOmega
-	if wr == 0 {
-		wr = 10
-	}
-	weak := m.SatLo * ReferenceGamma(base) / (wr * g)
+	// The field at which R/(g Omega) = 1 at the lowest measured saturation;
+	// the weak-field cases divide it by each Grid.WeakRoverGOmega.
+	weak := m.SatLo * ReferenceGamma(base) / g
 	cases := Cases(base, spec.Grid, m.Branch, weak)
 	res := RunCases(ctx, cases, workers, run, progress)
 	if err := ctx.Err(); err != nil {

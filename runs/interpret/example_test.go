@@ -153,7 +153,7 @@ func ExampleEvaluate() {
 		for k := -20; k <= 40; k++ {
 			s := math.Pow(10, float64(k)/10)
 			f := s / (1 + s)
-			c = append(c, interpret.Sample{Saturation: s, Ml: math.Abs(q) * f, Qb: q * f, RoverGOmega: 1e-5 * s})
+			c = append(c, interpret.Sample{Saturation: s, Ml: math.Abs(q) * f, Qb: q * f, RoverGOmega: 1e-5 * s, Excess: 1e-5 * s / interpret.ValidLimit})
 		}
 		return c
 	}
