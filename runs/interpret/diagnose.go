@@ -279,7 +279,7 @@ type CaseResult struct {
 	RGOmega    Interval
 	Excess     Interval // validity measure over its limit (Sample.Excess)
 	Covered    bool     // the checkpoints span the whole saturation range
-	Consistent bool // reproduces the measurement (m_l, and P_V when given)
+	Consistent bool     // reproduces the measurement (m_l, and P_V when given)
 	// ConsistentMl: reproduces m_l alone (equal to Consistent without P_V).
 	ConsistentMl bool
 	Err          error
