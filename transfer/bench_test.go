@@ -53,10 +53,56 @@ func BenchmarkStep(b *testing.B) {
 	}
 }
 
+// BenchmarkJ10Rates128 and BenchmarkJ10Density128 run J=1-0 at 128
+// channels to R/Gamma = 1e4 with the rate equations and with the density
+// matrix throughout: the density matrix's target is at most 3x the
+// populations-only time (compare the two in one run).
+func BenchmarkJ10Rates128(b *testing.B)   { benchJ10Model(b, 128, Rates) }
+func BenchmarkJ10Density128(b *testing.B) { benchJ10Model(b, 128, Density) }
+
+func benchJ10Model(b *testing.B, channels int, pm PopulationModel) {
+	tr := j10Split(144, 10)
+	m, err := NewModel(tr, Params{Theta: deg(60), Doppler: 1000, GammaUpper: 0.01, GammaLower: 0.01, Channels: channels, Population: pm})
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, err := m.Run(context.Background()); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkStepDensity times one integration step of J=1-0 with the
+// density matrix in the saturated regime; it must not allocate.
+func BenchmarkStepDensity(b *testing.B) {
+	m, err := NewModel(j10Split(144, 10), Params{Theta: deg(60), Doppler: 1000, GammaUpper: 0.01, GammaLower: 0.01, Population: Density})
+	if err != nil {
+		b.Fatal(err)
+	}
+	m.csOn = true
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if _, _, err := m.step(10, 0.1); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkSyntheticJ65Auto is BenchmarkSyntheticJ65 with the default
+// automatic population model (target: at most 5x the populations-only
+// time).
+func BenchmarkSyntheticJ65Auto(b *testing.B) { benchJ65(b, Auto) }
+
 // BenchmarkSyntheticJ65 runs the synthetic J=6-5 hyperfine preset (104
 // upper and 88 lower sublevels, about 1700 lines at 1 G) with 256 channels
-// to R/Gamma = 1e3. Target: under 10 s.
-func BenchmarkSyntheticJ65(b *testing.B) {
+// to R/Gamma = 1e3 with the rate equations. Target: under 10 s.
+func BenchmarkSyntheticJ65(b *testing.B) { benchJ65(b, Rates) }
+
+func benchJ65(b *testing.B, pm PopulationModel) {
 	sp, err := species.Preset("synthetic-j6-5")
 	if err != nil {
 		b.Fatal(err)
@@ -65,9 +111,14 @@ func BenchmarkSyntheticJ65(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	m, err := NewModel(tr, Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3})
+	m, err := NewModel(tr, Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3, Population: pm})
 	if err != nil {
 		b.Fatal(err)
+	}
+	if m.cs != nil {
+		b.Logf("density matrix: %d real unknowns per class", m.cs.dim)
+	} else if pm == Auto {
+		b.Logf("auto: %v", m.warnings)
 	}
 	b.ReportAllocs()
 	b.ResetTimer()

@@ -531,11 +531,17 @@ func (cs *coherent) solve(m *Model, st *state, j int) error {
 	for i, v := range cs.rhs0 {
 		cs.b[i] = phi * v
 	}
-	ag := blas64.General{Rows: dim, Cols: dim, Stride: dim, Data: a}
-	if !lapack64.Getrf(ag, cs.ipiv) {
-		return errSingular
+	if dim <= smallDim {
+		if !solveSmall(a, cs.b, dim) {
+			return errSingular
+		}
+	} else {
+		ag := blas64.General{Rows: dim, Cols: dim, Stride: dim, Data: a}
+		if !lapack64.Getrf(ag, cs.ipiv) {
+			return errSingular
+		}
+		lapack64.Getrs(blas.NoTrans, ag, blas64.General{Rows: dim, Cols: 1, Stride: 1, Data: cs.b}, cs.ipiv)
 	}
-	lapack64.Getrs(blas.NoTrans, ag, blas64.General{Rows: dim, Cols: 1, Stride: 1, Data: cs.b}, cs.ipiv)
 	x := cs.b
 	// Populations must stay non-negative (to rounding against the class's
 	// scale): a negative one means the flat-spectrum rule has been pushed
@@ -562,6 +568,58 @@ func (cs *coherent) solve(m *Model, st *state, j int) error {
 }
 
 var errSingular = errors.New("class matrix is singular")
+
+// smallDim is the largest class system solved by solveSmall: below it the
+// per-call cost of the blocked LAPACK routines (workspace queries, block
+// size choice, BLAS dispatch) outweighs the elimination itself, which is
+// done ~1e5 times per run (measured: 10 unknowns, J=1-0).
+const smallDim = 48
+
+// solveSmall solves the dense row-major system a x = b in place (x in b)
+// by Gaussian elimination with partial pivoting; a is destroyed. It
+// reports false for a singular matrix.
+func solveSmall(a, b []float64, n int) bool {
+	for k := 0; k < n; k++ {
+		p, best := k, math.Abs(a[k*n+k])
+		for i := k + 1; i < n; i++ {
+			if v := math.Abs(a[i*n+k]); v > best {
+				p, best = i, v
+			}
+		}
+		if !(best > 0) {
+			return false
+		}
+		if p != k {
+			rk, rp := a[k*n:k*n+n], a[p*n:p*n+n]
+			for j := k; j < n; j++ {
+				rk[j], rp[j] = rp[j], rk[j]
+			}
+			b[k], b[p] = b[p], b[k]
+		}
+		rk := a[k*n : k*n+n]
+		inv := 1 / rk[k]
+		for i := k + 1; i < n; i++ {
+			ri := a[i*n : i*n+n]
+			f := ri[k] * inv
+			if f == 0 {
+				continue
+			}
+			for j := k + 1; j < n; j++ {
+				ri[j] -= f * rk[j]
+			}
+			b[i] -= f * b[k]
+		}
+	}
+	for i := n - 1; i >= 0; i-- {
+		ri := a[i*n : i*n+n]
+		v := b[i]
+		for j := i + 1; j < n; j++ {
+			v -= ri[j] * b[j]
+		}
+		b[i] = v / ri[i]
+	}
+	return true
+}
 
 // flatness returns the flat-spectrum measure of the kept coherences at
 // saturation sat: the largest over kept pairs of min(1, sat/|omega|)

@@ -102,6 +102,33 @@
 // with its own J; Hyperfine p proportional to the weight of the state's F
 // label (UpperF, LowerF).
 //
+// # Zeeman coherences (density matrix)
+//
+// Params.Population chooses the population model of every velocity class
+// (one seam in populate: the class returns what it deposits on the
+// channels, and buildK, the integrator and the checkpoints do not know
+// which model ran):
+//   - Rates: the populations-only equations above (rates.go), valid for
+//     R << g Omega;
+//   - Density: the steady-state density matrix of each level in the
+//     eigenstate basis, coherences between eigenstates of one level kept,
+//     optical coherences eliminated in the broadband (rate) limit, with
+//     the radiation entering through the beam's coherency tensor built
+//     from (I, Q_f, U_f, V) (physics.md section 8; coherence.go holds the
+//     equations, their derivation and the conventions). The coherences
+//     give eta_U in the field frame; the dispersive terms of the line are
+//     neglected;
+//   - Auto (default): Rates while R/(g Omega) < AutoCoherenceFrom along the
+//     column, Density from there on; Rates throughout, with a warning, when
+//     the class system of the species exceeds autoMaxDim real unknowns.
+//
+// The coherence set keeps a pair of eigenstates of one level when their
+// splitting in rate units is below CoherenceThreshold x Saturation. Each
+// class system (populations, then Re and Im of every kept pair, real form)
+// is assembled from a stencil precomputed at NewModel and solved by LU
+// (gonum lapack64). A class whose populations come out negative stops the
+// run with a StepError naming the position, class and saturation.
+//
 // # Transfer
 //
 // dS/ds = K S per channel (see Propagation), K from the inversions of every
@@ -128,17 +155,22 @@
 // state; a gain-limited column that stays below FirstCheckpoint continues the
 // grid down to the seed, i negative), where saturation is the largest R_ab/Gamma over lines in the class
 // at the profile centre. Spectra are brightness temperatures in K (T_b dOmega
-// divided by BeamSolid). The rate equations neglect Zeeman coherences,
-// valid for R << g Omega; g Omega is 2 pi times the smallest energy
+// divided by BeamSolid). g Omega is 2 pi times the smallest energy
 // separation (Hz) between two sublevels of one level that couple to a
 // common sublevel (for J=1-0 the sigma-pi splitting). Each checkpoint
-// carries R/(g Omega) = Saturation Gamma/(g Omega) and Valid = (<= 0.1);
-// Trajectory.Warnings says from where on it is exceeded. With zero field,
-// g Omega = 0 and every checkpoint is outside validity (R/gOmega = +Inf).
+// carries R/(g Omega) = Saturation Gamma/(g Omega), Coherent (which model
+// gave it), FlatSpectrum and Valid: a populations-only checkpoint is valid
+// where R/(g Omega) <= ValidLimit (0.1), a density-matrix one where the
+// flat-spectrum measure is <= FlatLimit (0.01). Trajectory.Warnings says
+// from where on either is exceeded. With zero field g Omega = 0: the rate
+// equations are outside validity at every checkpoint, the density matrix
+// is not.
 //
 // # Defaults
 //
-// Channels 256, CheckpointsPerDecade 8, FirstCheckpoint 1e-3, Saturation
+// Population Auto, CoherenceThreshold 30 (project choices, see
+// coherence.go), Channels 256, CheckpointsPerDecade 8, FirstCheckpoint
+// 1e-3, Saturation
 // 1e4, Tolerance 1e-4 (project defaults); GammaUpper = GammaLower = 1 s^-1
 // (common practice, order of magnitude for SiO and H2O masers, from
 // memory); BeamSolid 1e-2 sr (common practice, from memory); Seed.Tb
