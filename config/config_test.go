@@ -364,6 +364,8 @@ func TestErrors(t *testing.T) {
 			"seed.tb.seed", 6, "share one seed", "", "field.theta"},
 		{"seed polarization", base("[seed]\nlinear = 0.9\ncircular = 0.9\n"), "seed.linear", 5, "exceeds 1", "", "<= 1"},
 		{"pump kind", base("[pump]\nkind = \"isotropc\"\n"), "pump.kind", 5, "unknown value", `"isotropic"`, "anisotropic"},
+		{"population model", base("[populations]\nmodel = \"densty\"\n"), "populations.model", 5, "unknown value", `"density"`, "rates"},
+		{"coherence threshold", base("[populations]\ncoherence_threshold = 0.5\n"), "populations.coherence_threshold", 5, "out of range", "", "1e+06"},
 		{"format", base("[output]\nformats = [\"png\", \"gif\"]\n"), "output.formats", 5, "unknown value", "", `"svg"`},
 		{"species", "species = \"sio-v1-j1-1\"\n[field]\nstrength = \"1 G\"\n", "species", 1, "species", `"` + preset + `"`, "preset"},
 		{"missing strength", "species = \"" + preset + "\"\n[field]\ntheta = \"3 deg\"\n", "field.strength", 2, "missing field strength", "", ""},
