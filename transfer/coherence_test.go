@@ -422,3 +422,25 @@ func TestCoherentNoPairs(t *testing.T) {
 		}
 	}
 }
+
+// TestCoherentNotPhysicalMessage: a class whose density matrix has
+// negative populations is reported with the position, class and
+// saturation and the reason (physics.md section 8, caution 1), never as a
+// NaN.
+func TestCoherentNotPhysicalMessage(t *testing.T) {
+	m, err := NewModel(j10Split(100, 10), Params{Theta: 1, Doppler: 1000, Population: Density})
+	if err != nil {
+		t.Fatal(err)
+	}
+	m.csOn = true
+	err = m.classError(12.5, m.jlo+3, 420, errNotPhysical)
+	var se *StepError
+	if !errors.As(err, &se) || se.Position != 12.5 || se.Channel != m.jlo+3 {
+		t.Fatalf("error %v", err)
+	}
+	for _, want := range []string{"density matrix of velocity class", "saturation R/Gamma = 420", "mean-resonance rule", "at gain 12.5"} {
+		if !strings.Contains(err.Error(), want) {
+			t.Errorf("message %q lacks %q", err, want)
+		}
+	}
+}
