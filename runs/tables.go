@@ -20,7 +20,7 @@ import (
 const ValidLimit = transfer.ValidLimit
 
 // validityNote is written into every table that carries model results.
-const validityNote = "population = rates (no coherences between Zeeman eigenstates): valid where R/(g Omega) <= 0.1; population = density (Zeeman coherences kept, any R/(g Omega)): valid where the flat-spectrum measure flat_spectrum <= 0.01; rows with valid = False are outside their model's regime"
+const validityNote = "population = rates (no coherences between Zeeman eigenstates): valid where R/(g Omega) <= 0.1; population = density (Zeeman coherences kept, any R/(g Omega)): valid where the flat-spectrum measure flat_spectrum <= 0.01; both need r_over_doppler <= 0.1 (rate approximation); rows with valid = False are outside their model's regime"
 
 // Fixed summary columns. The parameter columns (B_mG, theta_deg, chi_deg
 // and the swept ones) go between the head and the tail.
@@ -45,7 +45,8 @@ var (
 		{Name: "r_over_gomega", Datatype: ecsv.Float64, Description: "stimulated rate over Zeeman splitting R/(g Omega); the populations-only model is valid where <= 0.1"},
 		{Name: "population", Datatype: ecsv.String, Description: "population model that gave this checkpoint: rates (populations only) or density (Zeeman coherences)"},
 		{Name: "flat_spectrum", Datatype: ecsv.Float64, Description: "flat-spectrum measure of the kept coherences (0 for rates); the density matrix is valid where <= 0.01"},
-		{Name: "valid", Datatype: ecsv.Bool, Description: "True where the model of this checkpoint holds: rates, R/(g Omega) <= 0.1; density, flat_spectrum <= 0.01"},
+		{Name: "r_over_doppler", Datatype: ecsv.Float64, Description: "stimulated rate over the Doppler width in rate units, R/(2 pi nu0 v_D/c); the rate approximation of both models holds where <= 0.1"},
+		{Name: "valid", Datatype: ecsv.Bool, Description: "True where the model of this checkpoint holds: r_over_doppler <= 0.1 and, for rates, R/(g Omega) <= 0.1, for density, flat_spectrum <= 0.01"},
 	}
 	spectrumColumns = []ecsv.Column{
 		{Name: "checkpoint", Datatype: ecsv.Int64, Description: "checkpoint index, matches summary.csv"},
@@ -225,7 +226,7 @@ func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model,
 				w.Float(x)
 			}
 			w.Int(k).Float(cp.Saturation).Float(cp.Gain).Float(cp.TbdOmega).Float(cp.IPeak).Float(cp.Ml).Float(cp.MlInt).
-				Float(units.In(cp.EVPA, units.Angle, "deg")).Float(cp.Qb).Float(cp.PV).Float(cp.VIPeak).Float(cp.Ub).Float(cp.RoverGOmega).String(populationOf(cp)).Float(cp.FlatSpectrum).Bool(cp.Valid)
+				Float(units.In(cp.EVPA, units.Angle, "deg")).Float(cp.Qb).Float(cp.PV).Float(cp.VIPeak).Float(cp.Ub).Float(cp.RoverGOmega).String(populationOf(cp)).Float(cp.FlatSpectrum).Float(cp.RoverDoppler).Bool(cp.Valid)
 			if err := w.End(); err != nil {
 				return err
 			}

@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"math"
 	"strings"
+
+	"gonum.org/v1/gonum/unit/constant"
 )
 
 // Step-control constants (common practice for embedded-pair control).
@@ -322,6 +324,7 @@ func (m *Model) checkpoint(pos float64) Checkpoint {
 		cp.MlInt = sm / sw
 	}
 	cp.RoverGOmega = m.cur.sat * m.gamma / m.gOmega
+	cp.RoverDoppler = m.cur.sat * m.gamma * float64(constant.LightSpeedInVacuum) / (2 * math.Pi * p.Species.Frequency * p.Doppler)
 	cp.Coherent = m.cur.coherent
 	if cp.Coherent {
 		cp.FlatSpectrum = m.cs.flatness(m.cur.sat)
@@ -329,8 +332,15 @@ func (m *Model) checkpoint(pos float64) Checkpoint {
 	} else {
 		cp.Valid = cp.RoverGOmega <= ValidLimit
 	}
+	cp.Valid = cp.Valid && cp.RoverDoppler <= BroadbandLimit
 	return cp
 }
+
+// BroadbandLimit is the largest R/(2 pi Delta nu_D) at which a checkpoint
+// counts as valid: the rate (broadband) approximation that eliminates the
+// optical coherences needs the stimulated rate small against the line
+// width; at 0.1 its correction is of order 1 % (project choice).
+const BroadbandLimit = 0.1
 
 // FlatLimit is the largest Checkpoint.FlatSpectrum at which a density-matrix
 // checkpoint counts as valid: the coherences then carry a relative error
@@ -367,10 +377,15 @@ const ValidLimit = 0.1
 // R/(g Omega) > ValidLimit (Zeeman coherences neglected); density-matrix
 // checkpoints where the flat-spectrum measure exceeds FlatLimit.
 func ValidityWarning(tr *Trajectory) string {
-	var rates, flat []Checkpoint
+	var rates, flat, broad []Checkpoint
 	for _, cp := range tr.Checkpoints {
+		if cp.RoverDoppler > BroadbandLimit {
+			broad = append(broad, cp)
+		}
 		switch {
 		case cp.Valid:
+		case cp.Coherent && cp.FlatSpectrum <= FlatLimit:
+		case !cp.Coherent && cp.RoverGOmega <= ValidLimit:
 		case cp.Coherent:
 			flat = append(flat, cp)
 		default:
@@ -393,6 +408,10 @@ func ValidityWarning(tr *Trajectory) string {
 		}
 		msgs = append(msgs, fmt.Sprintf("the flat-spectrum measure of the Zeeman coherences exceeds %g from R/Gamma = %.3g on (max %.3g; %d of %d checkpoints): coherent sublevels whose lines lie a sizeable fraction of the Doppler width apart carry the error of the mean-resonance rule (valid = False in the tables)",
 			FlatLimit, flat[0].Saturation, maxF, len(flat), len(tr.Checkpoints)))
+	}
+	if len(broad) > 0 {
+		msgs = append(msgs, fmt.Sprintf("the stimulated rate exceeds %g of the Doppler width in rate units from R/Gamma = %.3g on (%d of %d checkpoints): the rate approximation behind both population models weakens there (valid = False in the tables)",
+			BroadbandLimit, broad[0].Saturation, len(broad), len(tr.Checkpoints)))
 	}
 	return strings.Join(msgs, "; ")
 }

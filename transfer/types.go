@@ -150,9 +150,13 @@ type Checkpoint struct {
 	// coherence terms (coherent.flatness; 0 for populations only): valid
 	// while it is <= FlatLimit.
 	FlatSpectrum float64
+	// RoverDoppler is the stimulated rate over the Doppler width in rate
+	// units, R/(2 pi nu0 v_D/c): the rate (broadband) approximation of both
+	// population models holds while it is <= BroadbandLimit.
+	RoverDoppler float64
 	// Valid is true when every approximation of the model used holds:
-	// populations only, R/(g Omega) <= ValidLimit; density matrix,
-	// FlatSpectrum <= FlatLimit.
+	// R/Doppler <= BroadbandLimit, and populations only, R/(g Omega) <=
+	// ValidLimit; density matrix, FlatSpectrum <= FlatLimit.
 	Valid bool
 	// Sky-frame Stokes spectra in K of brightness temperature, one per channel.
 	I, Q, U, V []float64
