@@ -21,7 +21,7 @@ import (
 const maxCurves = figures.DefaultMaxLegend
 
 // Plot draws the figures of a run directory from its tables alone
-// (summary.csv and spectra/), into dir/plots, in the given formats
+// (summary.ecsv and spectra/), into dir/plots, in the given formats
 // (default png and svg). It returns the files written. A figure with
 // nothing to draw is skipped, and note (if not nil) is told so.
 //
@@ -40,7 +40,7 @@ func Plot(dir string, formats []string, note func(string)) ([]string, error) {
 	if len(formats) == 0 {
 		formats = []string{"png", "svg"}
 	}
-	sum, err := ecsv.ReadFile(filepath.Join(dir, "summary.csv"))
+	sum, err := ecsv.ReadFile(SummaryPath(dir))
 	if err != nil {
 		return nil, err
 	}
@@ -103,7 +103,7 @@ func removeOwnFigures(pd string, formats []string) {
 	}
 }
 
-// summaryModel is one model's rows of summary.csv.
+// summaryModel is one model's rows of summary.ecsv.
 type summaryModel struct {
 	name, species string
 	params        []param // parameter columns in table order

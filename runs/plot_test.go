@@ -125,7 +125,7 @@ func TestSaturationFigureNames(t *testing.T) {
 func TestSpectraCarryValidity(t *testing.T) {
 	dir := t.TempDir()
 	execute(t, study(t, cfg2x3), dir, Options{})
-	sum, err := ecsv.ReadFile(filepath.Join(dir, "summary.csv"))
+	sum, err := ecsv.ReadFile(filepath.Join(dir, "summary.ecsv"))
 	if err != nil {
 		t.Fatal(err)
 	}

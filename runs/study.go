@@ -107,7 +107,7 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	if err != nil {
 		return nil, err
 	}
-	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, "summary.csv"), Manifest: filepath.Join(dir, "manifest.json")}
+	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, SummaryName), Manifest: filepath.Join(dir, "manifest.json")}
 
 	// The models/ files are the record of what is finished.
 	var todo []int
@@ -464,7 +464,7 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 	if cols == nil {
 		return vs, nil
 	}
-	return vs, writeAtomic(filepath.Join(dir, "summary.csv"), func(out io.Writer) error {
+	err := writeAtomic(filepath.Join(dir, SummaryName), func(out io.Writer) error {
 		w := ecsv.NewWriter(out, cols, meta)
 		for _, t := range tabs {
 			for _, r := range t.Rows {
@@ -475,4 +475,8 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 		}
 		return w.Flush()
 	})
+	if err == nil {
+		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
+	}
+	return vs, err
 }

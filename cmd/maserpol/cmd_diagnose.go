@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bytes"
 	"context"
 	"errors"
 	"fmt"
@@ -44,8 +43,8 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	nsigma := fs.Float64("nsigma", 2, "a model is consistent when within this many errors")
 	quick := fs.Bool("quick", false, "small grid (15 models) for previews and tests")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
-	csvPath := fs.String("csv", "", "write the verdict table as CSV to this file")
-	details := fs.String("details", "", "write one CSV row per model to this file")
+	tablePath := fs.String("table", "", "write the verdict table to this file: .ecsv (with units) or .csv (plain)")
+	details := fs.String("details", "", "write one row per model to this file: .ecsv (with units) or .csv (plain)")
 	plotPath := fs.String("plot", "", "write the figure of m_l against saturation (format from the extension: png, svg, pdf, eps)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -54,6 +53,13 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	if len(pos) != 1 {
 		fs.Usage()
 		return exitInput
+	}
+	for _, t := range []struct{ flag, path string }{{"table", *tablePath}, {"details", *details}} {
+		if t.path != "" {
+			if _, err := checkTablePath(t.flag, t.path); err != nil {
+				return report(stderr, err)
+			}
+		}
 	}
 	sp, err := species.Resolve(pos[0])
 	if err != nil {
@@ -182,14 +188,14 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	for _, w := range d.Warnings {
 		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
 	}
-	if *csvPath != "" {
-		if err := writeAtomically(*csvPath, diagnosisCSV(d, sp.Name)); err != nil {
+	if *tablePath != "" {
+		if err := writeDiagnosis(*tablePath, d, sp.Name); err != nil {
 			return report(stderr, err)
 		}
-		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *tablePath)
 	}
 	if *details != "" {
-		if err := writeAtomically(*details, diagnosisDetailsCSV(d)); err != nil {
+		if err := writeDiagnosisDetails(*details, d, sp.Name); err != nil {
 			return report(stderr, err)
 		}
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *details)
@@ -216,14 +222,6 @@ func ivText(iv interpret.Interval, f func(float64) string) string {
 		return f(iv.Lo)
 	}
 	return f(iv.Lo) + " .. " + f(iv.Hi)
-}
-
-// fcsv writes a float for CSV, infinities (empty ranges) as nan.
-func fcsv(x float64) string {
-	if math.IsInf(x, 0) {
-		return "nan"
-	}
-	return strconv.FormatFloat(x, 'g', -1, 64)
 }
 
 func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
@@ -266,40 +264,6 @@ func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
 	for _, s := range d.CannotRuleOut {
 		fmt.Fprintf(w, "  - %s\n", s)
 	}
-}
-
-func diagnosisCSV(d *interpret.Diagnosis, name string) []byte {
-	var b csvBuffer
-	m := d.Measurement
-	b.comment("maserpol diagnose: %s; m_l = %g +/- %g (%s branch), R/Gamma %g..%g, n_sigma %g; field cases B = %g G, weak-field cases B = %g G", name, m.Ml, m.MlErr, m.Branch, m.SatLo, m.SatHi, m.NSigma, d.Field, d.WeakField)
-	b.comment("fractions dimensionless; pl = m_l projected on the measured branch (negative: orthogonal); valid: R/(g Omega) <= 0.1 (populations-only model)")
-	b.comment("valid: R/(g Omega) <= 0.1 over the whole range; valid_up_to: the saturation R/Gamma up to which it holds when not valid (nan: nowhere in the range); consistent_ml, n_consistent_ml, pv_constrained: the answer from m_l alone and whether P_V changed it (with --pv)")
-	b.row("mechanism", "parameter", "consistent", "n_consistent", "n_models", "pl_min", "pl_max", "r_over_gomega_min", "r_over_gomega_max", "valid", "valid_up_to", "reproduces", "consistent_ml", "n_consistent_ml", "pv_constrained", "note")
-	for _, v := range d.Verdicts {
-		ml, nml := v.Consistent, v.NConsistent
-		if m.HasPV {
-			ml, nml = v.ConsistentMl, v.NConsistentMl
-		}
-		b.row(v.Mechanism.String(), v.Parameter, v.Consistent, strconv.Itoa(v.NConsistent), strconv.Itoa(v.NModels),
-			fcsv(v.Reach.Lo), fcsv(v.Reach.Hi), fcsv(v.RGOmega.Lo), fcsv(v.RGOmega.Hi), strconv.FormatBool(v.Valid), fcsv(v.ValidUpTo), strconv.FormatBool(v.Reproduces),
-			ml, strconv.Itoa(nml), strconv.FormatBool(v.PVConstrained), v.Note)
-	}
-	return b.Bytes()
-}
-
-func diagnosisDetailsCSV(d *interpret.Diagnosis) []byte {
-	var b csvBuffer
-	b.comment("maserpol diagnose: one row per model; theta in deg, B in G; pl and pv over the measured saturation range; pl = m_l projected on the measured branch")
-	b.row("mechanism", "theta_deg", "B_G", "alignment", "seed_ml", "pl_min", "pl_max", "pv_min", "pv_max", "r_over_gomega_max", "covered", "consistent", "error")
-	for _, r := range d.Cases {
-		msg := ""
-		if r.Err != nil {
-			msg = r.Err.Error()
-		}
-		b.row(r.Case.Mechanism.String(), fcsv(r.Case.Theta*180/math.Pi), fcsv(r.Case.Params.Field), fcsv(r.Case.Alignment), fcsv(r.Case.SeedFraction),
-			fcsv(r.Reach.Lo), fcsv(r.Reach.Hi), fcsv(r.PV.Lo), fcsv(r.PV.Hi), fcsv(r.RGOmega.Hi), strconv.FormatBool(r.Covered), strconv.FormatBool(r.Consistent), msg)
-	}
-	return b.Bytes()
 }
 
 // parseRange reads "x unit" or "lo:hi unit" (the unit after the last part
@@ -360,24 +324,4 @@ func saveFigure(s *figures.Stack, path string) ([]string, error) {
 		return nil, usagef("--plot %q: unknown figure format %q (allowed: %s)", path, ext, strings.Join(figures.Formats, ", "))
 	}
 	return s.Save(strings.TrimSuffix(path, "."+ext), []string{ext})
-}
-
-// csvBuffer is a CSV table under construction with '#' comment lines.
-type csvBuffer struct{ bytes.Buffer }
-
-func (b *csvBuffer) comment(format string, a ...any) {
-	fmt.Fprintf(b, "# "+format+"\n", a...)
-}
-
-func (b *csvBuffer) row(cells ...string) {
-	for i, c := range cells {
-		if i > 0 {
-			b.WriteByte(',')
-		}
-		if strings.ContainsAny(c, ",\"\n") {
-			c = `"` + strings.ReplaceAll(c, `"`, `""`) + `"`
-		}
-		b.WriteString(c)
-	}
-	b.WriteByte('\n')
 }

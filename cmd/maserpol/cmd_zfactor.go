@@ -19,7 +19,7 @@ import (
 )
 
 const (
-	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--csv FILE]"
+	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--table FILE]"
 	zfactorSummary = "compute the factor that turns Stokes V into B cos(theta), against the linear-Zeeman estimate"
 )
 
@@ -34,7 +34,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels")
 	b0 := fs.String("b0", "", "small model field, e.g. \"2 G\" (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
-	csvPath := fs.String("csv", "", "write the table as CSV to this file")
+	tablePath := fs.String("table", "", "write the table to this file: .ecsv (with units) or .csv (plain)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -42,6 +42,11 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	if len(pos) != 1 {
 		fs.Usage()
 		return exitInput
+	}
+	if *tablePath != "" {
+		if _, err := checkTablePath("table", *tablePath); err != nil {
+			return report(stderr, err)
+		}
 	}
 	sp, err := species.Resolve(pos[0])
 	if err != nil {
@@ -96,11 +101,11 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	for _, w := range f.Warnings {
 		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
 	}
-	if *csvPath != "" {
-		if err := writeAtomically(*csvPath, factorsCSV(f)); err != nil {
+	if *tablePath != "" {
+		if err := writeFactors(*tablePath, f); err != nil {
 			return report(stderr, err)
 		}
-		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *tablePath)
 	}
 	return exitOK
 }
@@ -202,17 +207,4 @@ func gaussText(b float64) string {
 		return g3(b*1e3) + " mG"
 	}
 	return g3(b) + " G"
-}
-
-func factorsCSV(f *interpret.Factors) []byte {
-	var b csvBuffer
-	b.comment("maserpol zeeman-factor: %s, %s; B0 = %g G; fit window %g..%g km/s", f.Species.Name, compName(f), f.B0, f.Window[0]/1e3, f.Window[1]/1e3)
-	b.comment("factor = A/(B0 cos theta) from V = A dI/dv + C I; B cos(theta) = A_observed/factor; linear = single-component linear-Zeeman value")
-	b.comment("r_over_gomega at B0, scaling as 1/B: a row holds for b_valid_min_G <= |B| <= %g G; good_fit: residual <= %g; valid: good_fit and r_over_gomega <= 0.1 at B0", f.BMax, interpret.MaxResidual)
-	b.row("theta_deg", "saturation", "r_over_gomega", "valid", "good_fit", "b_valid_min_G", "A_kms", "C", "factor_ms_per_G", "linear_ms_per_G", "ratio", "pv_per_G", "linearity", "residual")
-	for _, r := range f.Rows {
-		b.row(fcsv(r.Theta*180/math.Pi), fcsv(r.Saturation), fcsv(r.RoverGOmega), strconv.FormatBool(r.Valid), strconv.FormatBool(r.GoodFit), fcsv(r.BValidMin),
-			fcsv(r.A/1e3), fcsv(r.C), fcsv(r.Factor), fcsv(r.Linear), fcsv(r.Ratio), fcsv(r.PVPerG), fcsv(r.Linearity), fcsv(r.Residual))
-	}
-	return b.Bytes()
 }

@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
@@ -18,13 +17,15 @@ import (
 	"maserpol/config/units"
 	"maserpol/levels"
 	"maserpol/levels/species"
+	"maserpol/runs"
+	"maserpol/runs/ecsv"
 	"maserpol/runs/figures"
 )
 
 func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("levels", stderr)
 	field := fs.String("field", "", "field `grid`: \"START:STOP:N UNIT\" (N evenly spaced values), a list \"a,b,c UNIT\" or one value \"25 mG\" (default \"0:100:21 mG\" for paramagnetic species, \"0:100:21 G\" for closed-shell ones)")
-	format := fs.String("format", "table", "output `format`: table or csv")
+	format := fs.String("format", "table", "output `format`: table, ecsv (long form with units, for astropy) or csv (the same, plain)")
 	plotFile := fs.String("plot", "", "also draw the Zeeman diagram into `FILE` (.png, .svg, .pdf or .eps; no extension: png and svg)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -34,17 +35,20 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fs.Usage()
 		return exitInput
 	}
-	if *format != "table" && *format != "csv" {
-		return report(stderr, usagef("--format %q: allowed: table, csv", *format))
+	if *format != "table" && *format != "csv" && *format != "ecsv" {
+		return report(stderr, usagef("--format %q: allowed: table, ecsv, csv", *format))
 	}
 	sps, names, err := resolveSpecies(pos[0])
 	if err != nil {
 		return report(stderr, err)
 	}
-	var cw *csv.Writer
-	if *format == "csv" {
-		cw = csv.NewWriter(stdout)
-		cw.Write(levelCSVHeader)
+	var cw *ecsv.Writer
+	switch *format {
+	case "csv":
+		cw = ecsv.NewPlainWriter(stdout, levelColumns)
+	case "ecsv":
+		cw = ecsv.NewWriter(stdout, levelColumns, []ecsv.Meta{{Key: "program", Value: "maserpol " + runs.Version}, {Key: "command", Value: "levels"},
+			{Key: "kinds", Value: "component: zero-field hyperfine components; state: eigenstates at each field; line: allowed transitions at each field; cells that do not apply are empty"}})
 	}
 	for k, sp := range sps {
 		grid := *field
@@ -66,7 +70,9 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 			return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
 		}
 		if cw != nil {
-			lt.writeCSV(cw)
+			if err := lt.writeCSV(cw); err != nil {
+				return report(stderr, err)
+			}
 		} else {
 			lt.writeTable(stdout, names[k])
 		}
@@ -86,8 +92,7 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		}
 	}
 	if cw != nil {
-		cw.Flush()
-		if err := cw.Error(); err != nil {
+		if err := cw.Flush(); err != nil {
 			return report(stderr, err)
 		}
 	}
@@ -385,20 +390,45 @@ func (lt *levelTables) writeTable(w io.Writer, name string) {
 	fmt.Fprintln(w)
 }
 
-// levelCSVHeader is the long-form CSV of "levels --format csv": one row per
-// component (kind = component), state (kind = state) or transition line
-// (kind = line); cells that do not apply are empty.
-var levelCSVHeader = []string{"species", "kind", "field_mG", "level", "F", "F1", "M", "energy_khz", "composition",
-	"Fu", "F1u", "Mu", "Fl", "F1l", "Ml", "q", "offset_khz", "strength", "split_hz_per_G", "split_kms_per_G", "linear_up_to_G"}
+// levelColumns is the long-form table of "levels --format ecsv|csv": one
+// row per component (kind = component), state (kind = state) or transition
+// line (kind = line); cells that do not apply are empty. Angular momenta
+// are written as text ("3/2").
+var levelColumns = []ecsv.Column{
+	{Name: "species", Datatype: ecsv.String, Description: "preset name or species file"},
+	{Name: "kind", Datatype: ecsv.String, Description: "component, state or line"},
+	{Name: "field_mG", Unit: "mG", Datatype: ecsv.Float64, Description: "field strength"},
+	{Name: "level", Datatype: ecsv.String, Description: "upper or lower (states)"},
+	{Name: "F", Datatype: ecsv.String, Description: "zero-field F label carried to this field (states)"},
+	{Name: "F1", Datatype: ecsv.String, Description: "F1, J coupled to the first spin (states)"},
+	{Name: "M", Datatype: ecsv.String, Description: "total projection M (states)"},
+	{Name: "energy_khz", Unit: "kHz", Datatype: ecsv.Float64, Description: "E/h relative to the unsplit rotational level (states)"},
+	{Name: "composition", Datatype: ecsv.String, Description: "largest uncoupled-basis components (states)"},
+	{Name: "Fu", Datatype: ecsv.String, Description: "F of the upper state"},
+	{Name: "F1u", Datatype: ecsv.String, Description: "F1 of the upper state"},
+	{Name: "Mu", Datatype: ecsv.String, Description: "M of the upper state (lines)"},
+	{Name: "Fl", Datatype: ecsv.String, Description: "F of the lower state"},
+	{Name: "F1l", Datatype: ecsv.String, Description: "F1 of the lower state"},
+	{Name: "Ml", Datatype: ecsv.String, Description: "M of the lower state (lines)"},
+	{Name: "q", Datatype: ecsv.Int64, Description: "m_u - m_l (lines)"},
+	{Name: "offset_khz", Unit: "kHz", Datatype: ecsv.Float64, Description: "frequency offset from the species rest frequency"},
+	{Name: "strength", Datatype: ecsv.Float64, Description: "relative strength: lines sum to 1 per upper state, components sum to 1"},
+	{Name: "split_hz_per_G", Unit: "Hz / G", Datatype: ecsv.Float64, Description: "weak-field sigma+ minus pi centroid shift of a component"},
+	{Name: "split_kms_per_G", Unit: "km / (G s)", Datatype: ecsv.Float64, Description: "the same in velocity"},
+	{Name: "linear_up_to_G", Unit: "G", Datatype: ecsv.Float64, Description: "field below which the component's shifts stay linear in B within 1 %"},
+}
 
-func (lt *levelTables) writeCSV(cw *csv.Writer) {
+func (lt *levelTables) writeCSV(cw *ecsv.Writer) error {
 	f := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+	var err error
 	row := func(kv map[string]string) {
-		r := make([]string, len(levelCSVHeader))
-		for i, h := range levelCSVHeader {
-			r[i] = kv[h]
+		r := make([]string, len(levelColumns))
+		for i, c := range levelColumns {
+			r[i] = kv[c.Name]
 		}
-		cw.Write(r)
+		if err == nil {
+			err = cw.WriteCells(r)
+		}
 	}
 	name := lt.sp.Name
 	for _, c := range lt.comps {
@@ -423,6 +453,10 @@ func (lt *levelTables) writeCSV(cw *csv.Writer) {
 				"Fl": half(l.l.F), "F1l": half(l.l.F1), "Ml": half(l.l.M), "q": strconv.Itoa(l.q), "offset_khz": f(l.offsetKHz), "strength": f(l.streng)})
 		}
 	}
+	if err == nil {
+		err = cw.Flush()
+	}
+	return err
 }
 
 // plot draws the Zeeman diagram: one curve per state (followed by its

@@ -147,8 +147,8 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return exitInput
 	}
 	dir := pos[0]
-	if _, err := os.Stat(filepath.Join(dir, "summary.csv")); err != nil {
-		return report(stderr, usagef("%s is not a run directory with results (no summary.csv)", dir))
+	if _, err := os.Stat(runs.SummaryPath(dir)); err != nil {
+		return report(stderr, usagef("%s is not a run directory with results (no %s)", dir, runs.SummaryName))
 	}
 	fm, _, err := figureFormats(*formats, dir)
 	if err != nil {
@@ -190,7 +190,7 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		}
 	}
 	fmt.Fprintf(stdout, "run directory: %s\n  models: %d done, %d failed, %d pending of %d\n  summary:  %s\n",
-		pos[0], done, failed, pending, len(man.Models), filepath.Join(pos[0], "summary.csv"))
+		pos[0], done, failed, pending, len(man.Models), runs.SummaryPath(pos[0]))
 	if pending > 0 {
 		// A partial merge is not a result: say what is missing and how to
 		// finish, and draw no figures of half a study.
