@@ -139,7 +139,7 @@ func writeDiagnosisDetails(path string, d *interpret.Diagnosis, name string) err
 			if r.Err != nil {
 				msg = r.Err.Error()
 			}
-			err := w.String(r.Case.Mechanism.String()).Float(r.Case.Theta*180/math.Pi).Float(r.Case.Params.Field).Float(r.Case.Alignment).Float(r.Case.SeedFraction).
+			err := w.String(r.Case.Mechanism.String()).Float(r.Case.Theta * 180 / math.Pi).Float(r.Case.Params.Field).Float(r.Case.Alignment).Float(r.Case.SeedFraction).
 				Float(finite(r.Reach.Lo)).Float(finite(r.Reach.Hi)).Float(finite(r.PV.Lo)).Float(finite(r.PV.Hi)).Float(finite(r.RGOmega.Hi)).
 				Bool(r.Covered).Bool(r.Consistent).String(msg).End()
 			if err != nil {
@@ -176,8 +176,8 @@ func writeFactors(path string, f *interpret.Factors) error {
 	}
 	return writeTable(path, factorColumns, meta, func(w *ecsv.Writer) error {
 		for _, r := range f.Rows {
-			err := w.Float(r.Theta*180/math.Pi).Float(r.Saturation).Float(r.RoverGOmega).Bool(r.Valid).Bool(r.GoodFit).Float(r.BValidMin).
-				Float(r.A/1e3).Float(r.C).Float(r.Factor).Float(r.Linear).Float(r.Ratio).Float(r.PVPerG).Float(r.Linearity).Float(r.Residual).End()
+			err := w.Float(r.Theta * 180 / math.Pi).Float(r.Saturation).Float(r.RoverGOmega).Bool(r.Valid).Bool(r.GoodFit).Float(r.BValidMin).
+				Float(r.A / 1e3).Float(r.C).Float(r.Factor).Float(r.Linear).Float(r.Ratio).Float(r.PVPerG).Float(r.Linearity).Float(r.Residual).End()
 			if err != nil {
 				return err
 			}
