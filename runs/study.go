@@ -42,6 +42,7 @@ type Options struct {
 	Progress io.Writer // progress bar (terminal) or lines; nil = silent
 	Model    ModelFunc // nil = transfer.Run
 	NoPlots  bool      // do not draw figures even if the config asks for them
+	Titles   bool      // figures with titles (see PlotOptions)
 }
 
 // Report tells what a session did.
@@ -257,7 +258,7 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		writeErr = err
 	}
 	if ctx.Err() == nil && writeErr == nil && st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
-		figs, err := Plot(dir, st.Output.Formats, func(n string) { rep.Notes = append(rep.Notes, n) })
+		figs, err := Plot(dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
 		rep.Figures = figs
 		if err != nil {
 			writeErr = &PlotError{err}

@@ -20,6 +20,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	shard := fs.String("shard", "", "run only shard `K/N`: the models with index % N == K-1 (K = 1..N, like a job-array task index)")
 	out := fs.String("out", "", "run `directory` (default: output.dir of the config)")
 	noPlots := fs.Bool("no-plots", false, "do not draw figures (maserpol plot draws them later)")
+	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -45,7 +46,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if *out != "" {
 		dir = *out
 	}
-	code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: *resume, Shard: sh, NoPlots: *noPlots}, stdout, stderr)
+	code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: *resume, Shard: sh, NoPlots: *noPlots, Titles: *titles}, stdout, stderr)
 	if code == exitFailure && ctx.Err() != nil {
 		hint := "maserpol run " + pos[0] + " --resume"
 		if *out != "" {
@@ -138,6 +139,7 @@ func figureKinds(paths []string) string {
 func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("plot", stderr)
 	formats := fs.String("format", "", "comma-separated figure `formats` among png, svg, pdf, eps (default: output.formats of the run's config.toml, else png,svg)")
+	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -154,7 +156,7 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return report(stderr, err)
 	}
-	figs, err := runs.Plot(dir, fm, noteTo(stderr))
+	figs, err := runs.Plot(dir, runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
 	if err != nil {
 		return report(stderr, err)
 	}
@@ -166,6 +168,7 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	fs := flagsFor("merge", stderr)
 	formats := fs.String("format", "", "comma-separated figure `formats` (default: output.formats of the config)")
 	noPlots := fs.Bool("no-plots", false, "do not draw figures")
+	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -210,7 +213,7 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		return report(stderr, err)
 	}
 	if plots && !*noPlots && done > 0 {
-		figs, err := runs.Plot(pos[0], fm, noteTo(stderr))
+		figs, err := runs.Plot(pos[0], runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
 		if err != nil {
 			return report(stderr, err)
 		}

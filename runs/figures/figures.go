@@ -57,6 +57,7 @@ type Curve struct {
 	X, Y   []float64
 	Style  int  // colour and dash index; curves with the same Style look alike
 	Points bool // draw markers as well as the line
+	NoLine bool // markers only (scattered points such as random draws)
 	// BreakAbove, when > 0, leaves out the line between neighbouring
 	// points whose y values differ by more than it (an EVPA that flips by
 	// 90 deg is not a smooth change); markers still show every point.
@@ -344,6 +345,11 @@ func (s *Stack) layout() (*figure, error) {
 				pd.legend = append(pd.legend, legendEntry{c.Label, thumbs})
 			}
 		}
+		// A linear axis of values that start near zero includes zero, so
+		// that sizes compare by eye (common practice).
+		if !pn.LogY && !pn.Zeroed && ymin >= 0 && ymin < 0.2*ymax {
+			p.Y.Min = 0
+		}
 		switch {
 		case pn.Zeroed:
 			p.Y.Min, p.Y.Max = -1, 1
@@ -502,6 +508,10 @@ func addCurve(p *plot.Plot, c Curve, xy plotter.XYs, solid bool) ([]plot.Thumbna
 	var thumbs []plot.Thumbnailer
 	markers := c.Points
 	for _, seg := range segments(xy, c.BreakAbove) {
+		if c.NoLine {
+			markers = true
+			continue
+		}
 		if len(seg) < 2 {
 			markers = true
 			continue
