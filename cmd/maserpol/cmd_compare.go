@@ -9,6 +9,7 @@ import (
 	"text/tabwriter"
 
 	"maserpol/config/units"
+	"maserpol/runs/figures"
 	"maserpol/runs/interpret"
 )
 
@@ -27,6 +28,7 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	top := fs.Int("top", 3, "number of best models to print in detail and plot")
 	tablePath := fs.String("table", "", "write the full ranking to this file: .ecsv (with units) or .csv (plain)")
 	plotPath := fs.String("plot", "", "plot the best models over the data (format from the extension: png, svg, pdf, eps)")
+	titles := fs.Bool("titles", false, "put a title above the figure (journal figures have none)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -80,7 +82,11 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *tablePath)
 	}
 	if *plotPath != "" {
-		paths, err := saveFigure(interpret.CompareFigure(obs, rk[:min(*top, len(rk))], "best models over "+obs.File), *plotPath)
+		title := ""
+		if *titles {
+			title = "best models over " + figures.Escape(obs.File)
+		}
+		paths, err := saveFigure(interpret.CompareFigure(obs, rk[:min(*top, len(rk))], title), *plotPath)
 		if err != nil {
 			return report(stderr, err)
 		}

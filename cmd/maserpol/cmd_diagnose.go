@@ -46,6 +46,7 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	tablePath := fs.String("table", "", "write the verdict table to this file: .ecsv (with units) or .csv (plain)")
 	details := fs.String("details", "", "write one row per model to this file: .ecsv (with units) or .csv (plain)")
 	plotPath := fs.String("plot", "", "write the figure of m_l against saturation (format from the extension: png, svg, pdf, eps)")
+	titles := fs.Bool("titles", false, "put a title above the figure (journal figures have none)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -201,7 +202,11 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *details)
 	}
 	if *plotPath != "" {
-		paths, err := saveFigure(interpret.DiagnosisFigure(d, sp.Name+": m_l against saturation"), *plotPath)
+		title := ""
+		if *titles {
+			title = figures.Escape(sp.Name) + ": m_l against saturation"
+		}
+		paths, err := saveFigure(interpret.DiagnosisFigure(d, title), *plotPath)
 		if err != nil {
 			return report(stderr, err)
 		}

@@ -27,6 +27,7 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	field := fs.String("field", "", "field `grid`: \"START:STOP:N UNIT\" (N evenly spaced values), a list \"a,b,c UNIT\" or one value \"25 mG\" (default \"0:100:21 mG\" for paramagnetic species, \"0:100:21 G\" for closed-shell ones)")
 	format := fs.String("format", "table", "output `format`: table, ecsv (long form with units, for astropy) or csv (the same, plain)")
 	plotFile := fs.String("plot", "", "also draw the Zeeman diagram into `FILE` (.png, .svg, .pdf or .eps; no extension: png and svg)")
+	titles := fs.Bool("titles", false, "put a title above the Zeeman diagram (journal figures have none)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -82,7 +83,7 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 				ext := filepath.Ext(base)
 				base = strings.TrimSuffix(base, ext) + "_" + safeName(names[k]) + ext
 			}
-			paths, err := lt.plot(base)
+			paths, err := lt.plot(base, *titles)
 			if err != nil {
 				return report(stderr, err)
 			}
@@ -461,7 +462,7 @@ func (lt *levelTables) writeCSV(cw *ecsv.Writer) error {
 
 // plot draws the Zeeman diagram: one curve per state (followed by its
 // label across fields), coloured by F.
-func (lt *levelTables) plot(file string) ([]string, error) {
+func (lt *levelTables) plot(file string, titles bool) ([]string, error) {
 	ext := strings.TrimPrefix(filepath.Ext(file), ".")
 	formats := []string{"png", "svg"}
 	base := file
@@ -561,18 +562,54 @@ func (lt *levelTables) plot(file string) ([]string, error) {
 		// Legend entries in order of F.
 		sort.SliceStable(panels[k], func(a, b int) bool { return panels[k][a].Style < panels[k][b].Style })
 	}
-	title := lt.sp.Name + ": Zeeman diagram"
+	title := figures.Escape(lt.sp.Name) + ": Zeeman diagram"
 	fig := figures.Zeeman(title, panels[0], panels[1])
 	fig.XLabel = "field strength B (" + lt.unit + ")"
+	// Energies (or shifts) below 1 kHz, as at mG fields, read in Hz; both
+	// panels share the unit.
+	unit := "kHz"
+	if m := math.Max(maxAbs(panels[0]), maxAbs(panels[1])); m > 0 && m < 1 {
+		unit = "Hz"
+	}
 	for k, rel := range relative {
+		if unit == "Hz" {
+			unit = "Hz"
+			for i := range fig.Panels[k].Curves {
+				c := &fig.Panels[k].Curves[i]
+				y := make([]float64, len(c.Y))
+				for j, v := range c.Y {
+					y[j] = 1e3 * v
+				}
+				c.Y = y
+			}
+		}
+		name := []string{"upper", "lower"}[k]
 		if rel {
-			fig.Panels[k].YLabel = []string{"upper", "lower"}[k] + " ΔE/h (kHz)"
+			fig.Panels[k].YLabel = name + " ΔE/h (" + unit + ")"
+		} else {
+			fig.Panels[k].YLabel = name + " E/h (" + unit + ")"
 		}
 	}
 	if relative[0] || relative[1] {
 		fig.Title += "\nshifts from the zero-field hyperfine levels"
 	}
+	if !titles {
+		fig.Title = ""
+	}
 	return fig.Save(base, formats)
+}
+
+// maxAbs is the largest finite |y| of the curves.
+func maxAbs(cs []figures.Curve) float64 {
+	m := 0.0
+	for _, c := range cs {
+		for _, y := range c.Y {
+			if !math.IsNaN(y) && !math.IsInf(y, 0) {
+				m = math.Max(m, math.Abs(y))
+			}
+		}
+	}
+	return m
 }
 
 func nanSlice(n int) []float64 {

@@ -181,3 +181,26 @@ func TestRankingParameterColumns(t *testing.T) {
 		t.Errorf("plain CSV: %.200s", b)
 	}
 }
+
+// The Zeeman diagram at mG fields of a closed-shell species is in Hz (the
+// shifts are below 1 kHz), and figures carry a title only with --titles.
+func TestZeemanDiagramUnitsAndTitles(t *testing.T) {
+	dir := t.TempDir()
+	for _, titled := range []bool{false, true} {
+		p := filepath.Join(dir, "z.svg")
+		args := []string{"levels", "sio-v1-j1-0", "--field", "0:20:5 mG", "--plot", p}
+		if titled {
+			args = append(args, "--titles")
+		}
+		if code, _, errs := maserpol(t, args...); code != 0 {
+			t.Fatalf("exit %d: %s", code, errs)
+		}
+		b, _ := os.ReadFile(p)
+		if !strings.Contains(string(b), "(Hz)") || strings.Contains(string(b), "(kHz)") {
+			t.Error("Zeeman diagram at mG fields not in Hz")
+		}
+		if strings.Contains(string(b), "Zeeman diagram") != titled {
+			t.Errorf("--titles %v: title drawn = %v", titled, !titled)
+		}
+	}
+}
