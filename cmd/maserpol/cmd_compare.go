@@ -25,7 +25,7 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	vunit := fs.String("velocity-unit", "", "velocity unit when the file gives none (e.g. km/s)")
 	iunit := fs.String("intensity-unit", "", "intensity unit when the file gives none (K, mK; other units are kept and the scale is per K)")
 	maxShift := fs.String("max-shift", "", "largest velocity shift of the models, e.g. \"30 km/s\" (default: unbounded)")
-	top := fs.Int("top", 3, "number of best models to print in detail and plot")
+	top := fs.Int("top", 3, "number of best models to print and plot (--table writes all)")
 	tablePath := fs.String("table", "", "write the full ranking to this file: .ecsv (with units) or .csv (plain)")
 	plotPath := fs.String("plot", "", "plot the best models over the data (format from the extension: png, svg, pdf, eps)")
 	titles := fs.Bool("titles", false, "put a title above the figure (journal figures have none)")
@@ -159,7 +159,7 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 	fmt.Fprintln(tw, hdr+"\treduced chi2")
 	shown, outside, bound, zero := 0, 0, 0, 0
 	for i, r := range rk {
-		if i >= top && i >= 10 {
+		if i >= top {
 			fmt.Fprintf(tw, "...\t(%d more models; --table for all)\n", len(rk)-i)
 			break
 		}

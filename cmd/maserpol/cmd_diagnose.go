@@ -35,11 +35,11 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	evpa := fs.String("evpa-rel", "", "EVPA minus the position angle of the projected field, e.g. \"85 deg\"; selects the parallel or perpendicular branch (unset: orientation not tested)")
 	fwhm := fs.String("fwhm", "", "FWHM of the intrinsic (thermal+turbulent) velocity distribution, e.g. \"1.7 km/s\" (overrides --doppler)")
 	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution (FWHM = 1.665 x this)")
-	tb := fs.String("tb", "", "brightness temperature of the feature, e.g. \"3e9 K\" or \"1e9:5e9 K\"")
-	domega := fs.String("domega", "", "beaming solid angle dOmega, e.g. \"1e-2 sr\" or \"1e-3:1e-2 sr\"")
+	tb := fs.String("tb", "", "brightness temperature of the feature in K (or with a unit), e.g. 3e9 or \"1e9:5e9 K\"")
+	domega := fs.String("domega", "", "beaming solid angle dOmega in sr (or with a unit), e.g. 1e-2 or \"1e-3:1e-2 sr\"")
 	sat := fs.String("saturation", "", "saturation R/Gamma (dimensionless), one value or LO:HI; instead of --tb/--domega")
 	field := fs.String("field", "", "field strength of the field cases, e.g. \"5 G\" (default: R/(g Omega) = 0.01 at the top of the saturation range)")
-	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels (upper and lower)")
+	gamma := fs.String("gamma", defaultGamma(), "decay rate Gamma of the maser levels (upper and lower), in s^-1 or with a unit; the default is that of run")
 	nsigma := fs.Float64("nsigma", 2, "a model is consistent when within this many errors")
 	quick := fs.Bool("quick", false, "small grid (15 models) for previews and tests")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
@@ -128,7 +128,7 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		}
 		base.Doppler = w
 	}
-	g, err := units.Parse(*gamma, units.Rate)
+	g, err := units.ParsePlain(*gamma, units.Rate, "s^-1")
 	if err != nil || !(g > 0) {
 		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
 	}
@@ -145,16 +145,16 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	case *sat != "" && (*tb != "" || *domega != ""):
 		return report(stderr, usagef("give either --saturation or --tb with --domega, not both"))
 	case *sat != "":
-		if m.SatLo, m.SatHi, e = parseRange(*sat, units.Dimensionless, "saturation"); e != nil {
+		if m.SatLo, m.SatHi, e = parseRange(*sat, units.Dimensionless, "", "saturation"); e != nil {
 			return report(stderr, e)
 		}
 		satFrom = "given"
 	case *tb != "" && *domega != "":
-		t1, t2, err := parseRange(*tb, units.Temperature, "tb")
+		t1, t2, err := parseRange(*tb, units.Temperature, "K", "tb")
 		if err != nil {
 			return report(stderr, err)
 		}
-		o1, o2, err := parseRange(*domega, units.SolidAngle, "domega")
+		o1, o2, err := parseRange(*domega, units.SolidAngle, "sr", "domega")
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -272,8 +272,9 @@ func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
 }
 
 // parseRange reads "x unit" or "lo:hi unit" (the unit after the last part
-// applies to both) and returns lo, hi in internal units.
-func parseRange(s string, k units.Kind, flagName string) (lo, hi float64, err error) {
+// applies to both; without one, numbers are in plainUnit as in a config)
+// and returns lo, hi in internal units.
+func parseRange(s string, k units.Kind, plainUnit, flagName string) (lo, hi float64, err error) {
 	parts := strings.Split(s, ":")
 	if len(parts) > 2 {
 		return 0, 0, usagef("--%s %q: write one value or lo:hi with a unit (allowed units: %s)", flagName, s, units.Allowed(k))
@@ -286,10 +287,10 @@ func parseRange(s string, k units.Kind, flagName string) (lo, hi float64, err er
 	vals := make([]float64, len(parts))
 	for i, p := range parts {
 		p = strings.TrimSpace(p)
-		if i < len(parts)-1 && numberPrefix(p) == len(p) {
+		if i < len(parts)-1 && numberPrefix(p) == len(p) && unit != "" {
 			p += " " + unit
 		}
-		v, err := units.Parse(p, k)
+		v, err := units.ParsePlain(p, k, plainUnit)
 		if err != nil {
 			return 0, 0, usagef("--%s: %v", flagName, err)
 		}
@@ -301,6 +302,12 @@ func parseRange(s string, k units.Kind, flagName string) (lo, hi float64, err er
 	}
 	return lo, hi, nil
 }
+
+// defaultGamma is the decay rate of every command that does not read it
+// from a config: transfer.DefaultGamma, the default of run, so that the
+// saturation scale R/Gamma means the same in run, diagnose and
+// zeeman-factor.
+func defaultGamma() string { return strconv.FormatFloat(transfer.DefaultGamma, 'g', -1, 64) + " s^-1" }
 
 // numberPrefix returns the length of the leading number of s.
 func numberPrefix(s string) int {

@@ -31,7 +31,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution")
 	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution (overrides --doppler)")
 	satMax := fs.Float64("saturation", 100, "highest saturation R/Gamma (dimensionless); checkpoints from 1e-3 up")
-	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels")
+	gamma := fs.String("gamma", defaultGamma(), "decay rate Gamma of the maser levels, in s^-1 or with a unit; the default is that of run")
 	b0 := fs.String("b0", "", "small model field, e.g. \"2 G\" (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
 	tablePath := fs.String("table", "", "write the table to this file: .ecsv (with units) or .csv (plain)")
@@ -68,7 +68,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 		w /= 2 * math.Sqrt(math.Ln2)
 	}
 	base.Doppler = w
-	g, err := units.Parse(*gamma, units.Rate)
+	g, err := units.ParsePlain(*gamma, units.Rate, "s^-1")
 	if err != nil || !(g > 0) {
 		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
 	}

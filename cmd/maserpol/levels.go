@@ -28,6 +28,8 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	format := fs.String("format", "table", "output `format`: table, ecsv (long form with units, for astropy) or csv (the same, plain)")
 	plotFile := fs.String("plot", "", "also draw the Zeeman diagram into `FILE` (.png, .svg, .pdf or .eps; no extension: png and svg)")
 	titles := fs.Bool("titles", false, "put a title above the Zeeman diagram (journal figures have none)")
+	compsOnly := fs.Bool("components", false, "print only the zero-field hyperfine components with their weak-field splitting factors")
+	minStrength := fs.Float64("min-strength", 1e-6, "leave out components and lines weaker than this relative strength (0 keeps all; strengths sum to 1)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -35,6 +37,12 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if len(pos) != 1 {
 		fs.Usage()
 		return exitInput
+	}
+	if !(*minStrength >= 0 && *minStrength < 1) {
+		return report(stderr, usagef("--min-strength %g: allowed 0 <= x < 1 (relative strength; strengths sum to 1)", *minStrength))
+	}
+	if *compsOnly && *plotFile != "" {
+		return report(stderr, usagef("--components lists the zero-field components only; draw the Zeeman diagram without it"))
 	}
 	if *format != "table" && *format != "csv" && *format != "ecsv" {
 		return report(stderr, usagef("--format %q: allowed: table, ecsv, csv", *format))
@@ -63,6 +71,9 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		if err != nil {
 			return report(stderr, err)
 		}
+		if *compsOnly {
+			fields = nil
+		}
 		if sp.Unverified {
 			fmt.Fprintf(stderr, "maserpol: warning: species %s has constants not checked against a source (marked unverified); treat the numbers as illustrative\n", names[k])
 		}
@@ -70,6 +81,7 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		if err != nil {
 			return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
 		}
+		lt.dropWeak(*minStrength)
 		if cw != nil {
 			if err := lt.writeCSV(cw); err != nil {
 				return report(stderr, err)
@@ -238,6 +250,9 @@ type levelTables struct {
 	unit   string    // field unit for display, as the user wrote it
 	states [][2][]stateRow
 	lines  [][]lineRow
+	// minStrength is the cutoff of dropWeak, and what it left out.
+	minStrength                float64
+	droppedComps, droppedLines int
 }
 
 type stateRow struct {
@@ -355,6 +370,32 @@ func linearUpTo(g float64) string {
 	return strconv.FormatFloat(g, 'g', 4, 64)
 }
 
+// dropWeak leaves out components and lines weaker than min (forbidden
+// ones, whose strength is round-off, and negligible ones) and counts them.
+func (lt *levelTables) dropWeak(min float64) {
+	lt.minStrength = min
+	var cs []levels.Component
+	for _, c := range lt.comps {
+		if c.Strength >= min && c.Strength > 0 {
+			cs = append(cs, c)
+		} else {
+			lt.droppedComps++
+		}
+	}
+	lt.comps = cs
+	for i, ls := range lt.lines {
+		var keep []lineRow
+		for _, l := range ls {
+			if l.streng >= min && l.streng > 0 {
+				keep = append(keep, l)
+			} else {
+				lt.droppedLines++
+			}
+		}
+		lt.lines[i] = keep
+	}
+}
+
 func (lt *levelTables) writeTable(w io.Writer, name string) {
 	sp := lt.sp
 	fmt.Fprintf(w, "Species %s (%s): rest frequency %s, A = %g s^-1, %s magneton\n",
@@ -364,11 +405,14 @@ func (lt *levelTables) writeTable(w io.Writer, name string) {
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintf(tw, "Fu\tF1u\tFl\tF1l\toffset (kHz)\tstrength\tsplit (Hz/G)\tsplit (km/s/G)\tlinear up to (G)\t\n")
 	for _, c := range lt.comps {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.4f\t%.5f\t%.5g\t%.5g\t%s\t\n", half(c.Fu), half(c.F1u), half(c.Fl), half(c.F1l),
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.4f\t%.4g\t%.5g\t%.5g\t%s\t\n", half(c.Fu), half(c.F1u), half(c.Fl), half(c.F1l),
 			units.In(c.Offset, units.Frequency, "kHz"), c.Strength, c.SplitHzPerG, c.SplitKmsPerG, linearUpTo(c.LinearUpTo))
 	}
 	tw.Flush()
 	fmt.Fprintf(w, "(linear up to: field below which the splitting stays linear in B within 1 %%; inf = no hyperfine decoupling found up to 1e6 G)\n")
+	if lt.droppedComps+lt.droppedLines > 0 {
+		fmt.Fprintf(w, "(left out: %d components and %d lines of relative strength below %g; --min-strength 0 shows them)\n", lt.droppedComps, lt.droppedLines, lt.minStrength)
+	}
 	for i, b := range lt.fields {
 		fmt.Fprintf(w, "\nField B = %s\n", fieldText(b, lt.unit))
 		for k, lev := range []string{"upper", "lower"} {

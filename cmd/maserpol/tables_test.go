@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/json"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -9,7 +10,9 @@ import (
 	"strings"
 	"testing"
 
+	"maserpol/config/units"
 	"maserpol/runs/ecsv"
+	"maserpol/transfer"
 )
 
 // astropyPython returns a Python interpreter that has astropy, or "".
@@ -167,6 +170,11 @@ func TestRankingParameterColumns(t *testing.T) {
 	if len(th) != 6 || !slices.Contains(th, 90) {
 		t.Errorf("theta_deg column %v, want the six models' angles", th)
 	}
+	// --top N prints N ranked rows, not at least ten.
+	obs := filepath.Join("..", "..", "testdata", "observed", "kestrel9-sio.ecsv")
+	if code, out, errs := maserpol(t, "compare", filepath.Join(dir, "run"), obs, "--top", "2"); code != 0 || !strings.Contains(out, "(4 more models") {
+		t.Errorf("--top 2: exit %d, %s\n%s", code, errs, out)
+	}
 	// Plain CSV only when asked for by the name; other names are refused
 	// before any model runs.
 	if code, _, errs := maserpol(t, "compare", filepath.Join(dir, "run"), filepath.Join("..", "..", "testdata", "observed", "kestrel9-sio.ecsv"), "--table", filepath.Join(dir, "r.txt")); code != 2 || !strings.Contains(errs, ".ecsv") {
@@ -201,6 +209,50 @@ func TestZeemanDiagramUnitsAndTitles(t *testing.T) {
 		}
 		if strings.Contains(string(b), "Zeeman diagram") != titled {
 			t.Errorf("--titles %v: title drawn = %v", titled, !titled)
+		}
+	}
+}
+
+// levels --components lists the zero-field components only; a strength
+// cutoff leaves out weak ones and says so; a bad cutoff is exit 2.
+func TestLevelsComponents(t *testing.T) {
+	code, all, errs := maserpol(t, "levels", "synthetic-j6-5", "--components", "--min-strength", "0")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	if strings.Contains(all, "Field B =") || !strings.Contains(all, "split (Hz/G)") {
+		t.Errorf("--components output:\n%s", all)
+	}
+	_, strong, _ := maserpol(t, "levels", "synthetic-j6-5", "--components", "--min-strength", "0.01")
+	if n, m := strings.Count(strong, "\n"), strings.Count(all, "\n"); n >= m || !strings.Contains(strong, "left out:") {
+		t.Errorf("cutoff 0.01 keeps %d of %d lines:\n%s", n, m, strong)
+	}
+	if code, _, errs := maserpol(t, "levels", "synthetic-j6-5", "--min-strength", "2"); code != 2 || !strings.Contains(errs, "0 <= x < 1") {
+		t.Errorf("--min-strength 2: exit %d, %s", code, errs)
+	}
+}
+
+// Flags take bare numbers in their documented unit, as configs do
+// (tb = 1e11, solid_angle = 0.01, gamma_upper = 1), and one default decay
+// rate serves run, diagnose and zeeman-factor.
+func TestFlagsTakeBareNumbers(t *testing.T) {
+	lo, hi, err := parseRange("1e11:1e12", units.Temperature, "K", "tb")
+	if err != nil || lo != 1e11 || hi != 1e12 {
+		t.Errorf("--tb 1e11:1e12: %g, %g, %v", lo, hi, err)
+	}
+	if lo, hi, err = parseRange("1e-2", units.SolidAngle, "sr", "domega"); err != nil || lo != 1e-2 || hi != 1e-2 {
+		t.Errorf("--domega 1e-2: %g, %g, %v", lo, hi, err)
+	}
+	if lo, _, err = parseRange("1:3 mK", units.Temperature, "K", "tb"); err != nil || math.Abs(lo-1e-3) > 1e-15 {
+		t.Errorf("--tb 1:3 mK: %g, %v", lo, err)
+	}
+	if g, err := units.ParsePlain(defaultGamma(), units.Rate, "s^-1"); err != nil || g != transfer.DefaultGamma {
+		t.Errorf("default gamma %q = %g, run uses %g", defaultGamma(), g, transfer.DefaultGamma)
+	}
+	for _, cmd := range []string{"diagnose", "zeeman-factor"} {
+		_, _, errs := maserpol(t, cmd, "-h")
+		if !strings.Contains(errs, `(default "`+defaultGamma()+`")`) {
+			t.Errorf("%s -h does not show the common default gamma:\n%s", cmd, errs)
 		}
 	}
 }
