@@ -810,7 +810,7 @@ func plotTheta(models []*summaryModel, random bool, save saver) error {
 			fig.Panels[0].Extra = append(fig.Panels[0].Extra, "some points R/gΩ > 0.1")
 		}
 		if !evpa {
-			fig.Panels[1].YLabel = "Q_B/I (+: ∥ B)"
+			fig.Panels[1].YLabel = "Q/I, field frame"
 			for i := range fig.Panels[1].Curves {
 				fig.Panels[1].Curves[i].BreakAbove = 0
 			}
@@ -903,7 +903,7 @@ func plotSpread(models []*summaryModel, save saver) error {
 		mlp.Extra = append(mlp.Extra, rounded(100*float64(invalid)/float64(total), 2)+" % of points R/gΩ > 0.1")
 	}
 	pvp := panel(func(m *summaryModel) []float64 { return m.signedPV() })
-	pvp.YLabel, pvp.ZeroLine = "signed P_V", true
+	pvp.YLabel, pvp.ZeroLine, pvp.AutoLogY = "signed P_V", true, true
 	fig := &figures.Stack{Title: "spread over " + strconv.Itoa(len(models)) + " random models", XLabel: "saturation R/Γ", LogX: true,
 		Panels: []figures.Panel{mlp, pvp}}
 	return save(fig, "saturation_spread")

@@ -50,7 +50,7 @@ func Spectra(title string, velocityKms []float64, cps []Stokes) *Stack {
 func Saturation(title string, ml, pv []Curve) *Stack {
 	return &Stack{Title: title, XLabel: "saturation R/Γ", LogX: true, Panels: []Panel{
 		{YLabel: "m_l", Curves: ml, Legend: true},
-		{YLabel: "signed P_V", Curves: pv, ZeroLine: true},
+		{YLabel: "signed P_V", Curves: pv, ZeroLine: true, AutoLogY: true},
 	}}
 }
 

@@ -56,7 +56,7 @@ const measuredStyle = 6
 // CompareFigure draws the observed Stokes spectra (points) and the best
 // models shifted and scaled onto them (lines).
 func CompareFigure(obs *Observed, best []Ranked, title string) *figures.Stack {
-	unit := obs.Unit
+	unit := figures.Escape(obs.Unit)
 	if unit == "" {
 		unit = "file unit"
 	}
