@@ -756,7 +756,7 @@ func plotTheta(models []*summaryModel, random bool, save saver) error {
 			})
 			c1 := figures.Curve{Label: g.label, Style: i, Points: true, NoLine: random}
 			c2 := figures.Curve{Style: i, Points: true, NoLine: random}
-			bad1 := figures.Curve{Label: "R/gΩ > 0.1", Style: i + 1, Points: true, NoLine: true}
+			bad1 := figures.Curve{Style: i + 1, Points: true, NoLine: true}
 			bad2 := figures.Curve{Style: i + 1, Points: true, NoLine: true}
 			for _, m := range g.ms {
 				th, _ := m.value("theta_deg")
@@ -774,7 +774,8 @@ func plotTheta(models []*summaryModel, random bool, save saver) error {
 			if c1.Label == "" {
 				c1.Label = "all models"
 				if random {
-					c1.Label = strconv.Itoa(len(c1.X)) + " models"
+					c1.Label = "R/gΩ ≤ 0.1 (" + strconv.Itoa(len(c1.X)) + " models)"
+					bad1.Label = "R/gΩ > 0.1 (" + strconv.Itoa(len(bad1.X)) + ")"
 				}
 			}
 			merged := false
@@ -870,7 +871,9 @@ func plotSpread(models []*summaryModel, save saver) error {
 					vals = append(vals, v)
 				}
 			}
-			if len(vals) == 0 {
+			// A grid point that few models reach would make the
+			// quantiles jump: at least half of them, and three.
+			if len(vals) < max(3, (len(models)+1)/2) && len(vals) < len(models) {
 				continue
 			}
 			sort.Float64s(vals)
@@ -912,6 +915,16 @@ func plotSpread(models []*summaryModel, save saver) error {
 // interpLog interpolates y(x) linearly in log x at x0; ok is false outside
 // the model's range or at a NaN.
 func interpLog(x, y []float64, x0 float64) (float64, bool) {
+	// Within 3 % beyond either end a model counts as reaching x0: a column
+	// ends at R/Gamma = 99.98 for a target of 100.
+	if n := len(x); n > 0 {
+		switch {
+		case x0 > x[n-1] && x0 <= x[n-1]*1.03:
+			return y[n-1], !math.IsNaN(y[n-1])
+		case x0 < x[0] && x0 >= x[0]/1.03:
+			return y[0], !math.IsNaN(y[0])
+		}
+	}
 	for i := 1; i < len(x); i++ {
 		a, b := x[i-1], x[i]
 		if a > 0 && b > a && x0 >= a && x0 <= b {

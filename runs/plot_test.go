@@ -327,3 +327,18 @@ func TestSignedPV(t *testing.T) {
 		t.Errorf("P_V of theta = 30 and 150 deg: %d positive, %d negative points; want both", pos, neg)
 	}
 }
+
+// A model that ends within 3 % of a grid point reaches it (a column stops
+// at R/Gamma = 99.98 for a target of 100); beyond that it does not.
+func TestInterpLogEnds(t *testing.T) {
+	x, y := []float64{0.001, 1, 99.98}, []float64{0, 0.1, 0.3}
+	if v, ok := interpLog(x, y, 100); !ok || v != 0.3 {
+		t.Errorf("at 100: %g %v", v, ok)
+	}
+	if _, ok := interpLog(x, y, 110); ok {
+		t.Error("110 counted as reached")
+	}
+	if v, ok := interpLog(x, y, math.Sqrt(0.001)); !ok || math.Abs(v-0.05) > 1e-12 {
+		t.Errorf("midpoint in log: %g", v)
+	}
+}

@@ -483,6 +483,17 @@ func powerOfTen(pn Panel, logX bool) int {
 			}
 		}
 	}
+	for _, b := range pn.Bands {
+		for k := range b.X {
+			if usable(b.X[k], logX) {
+				for _, y := range []float64{b.Lo[k], b.Hi[k]} {
+					if usable(y, false) {
+						m = math.Max(m, math.Abs(y))
+					}
+				}
+			}
+		}
+	}
 	if m == 0 || m >= 1e-2 && m < 1e4 {
 		return 0
 	}

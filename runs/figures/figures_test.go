@@ -181,6 +181,12 @@ func TestPowerOfTenLabels(t *testing.T) {
 	if e := powerOfTen(plain, false); e != 0 {
 		t.Errorf("0.017 scaled by 10^%d", e)
 	}
+	// A band counts: a small median inside a wide range is not rescaled.
+	banded := Panel{YLabel: "P_V", Curves: []Curve{{X: []float64{0, 1}, Y: []float64{-5e-4, -4e-4}}},
+		Bands: []Band{{X: []float64{0, 1}, Lo: []float64{-0.02, -0.02}, Hi: []float64{0.02, 0.02}}}}
+	if e := powerOfTen(banded, false); e != 0 {
+		t.Errorf("band to 0.02 scaled by 10^%d", e)
+	}
 }
 
 func TestParseScripts(t *testing.T) {
