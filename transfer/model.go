@@ -494,7 +494,7 @@ func (m *Model) checkChannels(p Params, seed, span float64) {
 	}
 	width := p.Doppler / math.Sqrt(g)
 	if per := width / m.dv; per < MinChannelsPerWidth {
-		need := int(math.Ceil(span*MinChannelsPerWidth/width)) + 1
+		need := 64 * int(math.Ceil((span*MinChannelsPerWidth/width+1)/64)) // a round count
 		m.warnf("only %.2g channels per line width after gain narrowing (v_D/sqrt(G) = %.3g km/s at gain G = %.0f); P_V may be off by more than 0.5 %%: use at least %d channels (line.channels)",
 			per, width/1e3, g, need)
 	}
