@@ -24,7 +24,7 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	stokes := fs.String("stokes", "IQUV", "Stokes parameters to fit (I is required)")
 	vunit := fs.String("velocity-unit", "", "velocity unit when the file gives none (e.g. km/s)")
 	iunit := fs.String("intensity-unit", "", "intensity unit when the file gives none (K, mK; other units are kept and the scale is per K)")
-	maxShift := fs.String("max-shift", "", "largest velocity shift of the models, e.g. \"30 km/s\" (default: unbounded)")
+	maxShift := fs.String("max-shift", "", "largest velocity shift of the models in km/s (or with a unit), e.g. 30 (default: unbounded)")
 	top := fs.Int("top", 3, "number of best models to print and plot (--table writes all)")
 	tablePath := fs.String("table", "", "write the full ranking to this file: .ecsv (with units) or .csv (plain)")
 	plotPath := fs.String("plot", "", "plot the best models over the data (format from the extension: png, svg, pdf, eps)")
@@ -47,7 +47,7 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	}
 	var opt interpret.FitOptions
 	if *maxShift != "" {
-		if opt.MaxShift, err = units.Parse(*maxShift, units.Velocity); err != nil || !(opt.MaxShift > 0) {
+		if opt.MaxShift, err = units.ParsePlain(*maxShift, units.Velocity, "km/s"); err != nil || !(opt.MaxShift > 0) {
 			return report(stderr, usagef("--max-shift %q: need a velocity > 0 (allowed units: %s)", *maxShift, units.Allowed(units.Velocity)))
 		}
 	}

@@ -32,13 +32,13 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	mlErr := fs.String("ml-err", "", "1-sigma error of --ml (fraction or %) [required]")
 	pv := fs.String("pv", "", "measured circular polarization P_V = (V_max - V_min)/I_peak (fraction or %); compared only with --field")
 	pvErr := fs.String("pv-err", "", "1-sigma error of --pv")
-	evpa := fs.String("evpa-rel", "", "EVPA minus the position angle of the projected field, e.g. \"85 deg\"; selects the parallel or perpendicular branch (unset: orientation not tested)")
-	fwhm := fs.String("fwhm", "", "FWHM of the intrinsic (thermal+turbulent) velocity distribution, e.g. \"1.7 km/s\" (overrides --doppler)")
-	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution (FWHM = 1.665 x this)")
+	evpa := fs.String("evpa-rel", "", "EVPA minus the position angle of the projected field in deg (or with a unit), e.g. 85; selects the parallel or perpendicular branch (unset: orientation not tested)")
+	fwhm := fs.String("fwhm", "", "FWHM of the intrinsic (thermal+turbulent) velocity distribution in km/s (or with a unit), e.g. 1.7 (overrides --doppler)")
+	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution in km/s or with a unit (FWHM = 1.665 x this)")
 	tb := fs.String("tb", "", "brightness temperature of the feature in K (or with a unit), e.g. 3e9 or \"1e9:5e9 K\"")
 	domega := fs.String("domega", "", "beaming solid angle dOmega in sr (or with a unit), e.g. 1e-2 or \"1e-3:1e-2 sr\"")
 	sat := fs.String("saturation", "", "saturation R/Gamma (dimensionless), one value or LO:HI; instead of --tb/--domega")
-	field := fs.String("field", "", "field strength of the field cases, e.g. \"5 G\" (default: R/(g Omega) = 0.01 at the top of the saturation range)")
+	field := fs.String("field", "", "field strength of the field cases in G (or with a unit), e.g. 5 or \"500 mG\" (default: R/(g Omega) = 0.01 at the top of the saturation range)")
 	gamma := fs.String("gamma", defaultGamma(), "decay rate Gamma of the maser levels (upper and lower), in s^-1 or with a unit; the default is that of run")
 	nsigma := fs.Float64("nsigma", 2, "a model is consistent when within this many errors")
 	quick := fs.Bool("quick", false, "small grid (15 models) for previews and tests")
@@ -105,7 +105,7 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	}
 	m.NSigma = *nsigma
 	if *evpa != "" {
-		psi, err := units.Parse(*evpa, units.Angle)
+		psi, err := units.ParsePlain(*evpa, units.Angle, "deg")
 		if err != nil {
 			return report(stderr, usagef("--evpa-rel: %v", err))
 		}
@@ -116,13 +116,13 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	}
 	base := transfer.Params{Species: sp}
 	if *fwhm != "" {
-		w, err := units.Parse(*fwhm, units.Velocity)
+		w, err := units.ParsePlain(*fwhm, units.Velocity, "km/s")
 		if err != nil || !(w > 0) {
 			return report(stderr, usagef("--fwhm %q: need a velocity > 0 (allowed units: %s)", *fwhm, units.Allowed(units.Velocity)))
 		}
 		base.Doppler = w / (2 * math.Sqrt(math.Ln2))
 	} else {
-		w, err := units.Parse(*doppler, units.Velocity)
+		w, err := units.ParsePlain(*doppler, units.Velocity, "km/s")
 		if err != nil || !(w > 0) {
 			return report(stderr, usagef("--doppler %q: need a velocity > 0 (allowed units: %s)", *doppler, units.Allowed(units.Velocity)))
 		}
@@ -134,7 +134,7 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	}
 	base.GammaUpper, base.GammaLower = g, g
 	if *field != "" {
-		b, err := units.Parse(*field, units.Field)
+		b, err := units.ParsePlain(*field, units.Field, "G")
 		if err != nil || b == 0 {
 			return report(stderr, usagef("--field %q: need a non-zero field (allowed units: %s)", *field, units.Allowed(units.Field)))
 		}

@@ -27,12 +27,12 @@ const (
 func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("zeeman-factor", zfactorArgs, zfactorSummary, stderr)
 	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), an index as listed, or F labels \"2-1\"")
-	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit")
-	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution")
-	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution (overrides --doppler)")
+	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit (none: deg)")
+	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution, in km/s or with a unit")
+	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution, in km/s or with a unit (overrides --doppler)")
 	satMax := fs.Float64("saturation", 100, "highest saturation R/Gamma (dimensionless); checkpoints from 1e-3 up")
 	gamma := fs.String("gamma", defaultGamma(), "decay rate Gamma of the maser levels, in s^-1 or with a unit; the default is that of run")
-	b0 := fs.String("b0", "", "small model field, e.g. \"2 G\" (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
+	b0 := fs.String("b0", "", "small model field in G (or with a unit), e.g. 2 (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
 	tablePath := fs.String("table", "", "write the table to this file: .ecsv (with units) or .csv (plain)")
 	pos, err := parseFlags(fs, args)
@@ -60,7 +60,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	if *fwhm != "" {
 		vs, vname = *fwhm, "fwhm"
 	}
-	w, err := units.Parse(vs, units.Velocity)
+	w, err := units.ParsePlain(vs, units.Velocity, "km/s")
 	if err != nil || !(w > 0) {
 		return report(stderr, usagef("--%s %q: need a velocity > 0 (allowed units: %s)", vname, vs, units.Allowed(units.Velocity)))
 	}
@@ -75,7 +75,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	base.GammaUpper, base.GammaLower = g, g
 	spec := interpret.FactorSpec{Base: base, Component: interpret.Blend}
 	if *b0 != "" {
-		if spec.B0, err = units.Parse(*b0, units.Field); err != nil || !(spec.B0 > 0) {
+		if spec.B0, err = units.ParsePlain(*b0, units.Field, "G"); err != nil || !(spec.B0 > 0) {
 			return report(stderr, usagef("--b0 %q: need a field > 0 (allowed units: %s)", *b0, units.Allowed(units.Field)))
 		}
 	}
@@ -131,7 +131,7 @@ func parseAngleList(s string) ([]float64, error) {
 		if numberPrefix(p) == len(p) {
 			p += " " + unit
 		}
-		x, err := units.Parse(p, units.Angle)
+		x, err := units.ParsePlain(p, units.Angle, "deg")
 		if err != nil {
 			return nil, usagef("--theta: %v", err)
 		}

@@ -246,6 +246,9 @@ func TestFlagsTakeBareNumbers(t *testing.T) {
 	if lo, _, err = parseRange("1:3 mK", units.Temperature, "K", "tb"); err != nil || math.Abs(lo-1e-3) > 1e-15 {
 		t.Errorf("--tb 1:3 mK: %g, %v", lo, err)
 	}
+	if th, err := parseAngleList("0,30"); err != nil || len(th) != 2 || math.Abs(th[1]-math.Pi/6) > 1e-15 {
+		t.Errorf("--theta 0,30: %v, %v", th, err)
+	}
 	if g, err := units.ParsePlain(defaultGamma(), units.Rate, "s^-1"); err != nil || g != transfer.DefaultGamma {
 		t.Errorf("default gamma %q = %g, run uses %g", defaultGamma(), g, transfer.DefaultGamma)
 	}
