@@ -79,13 +79,18 @@ func writeEveryTable(t *testing.T, dir string) []string {
 // astropy implementation of ECSV 1.0, Debian python3-astropy; script in
 // testdata/astropy_read.py). Units must also parse in our own unit table
 // where they are ones a user may type.
-func TestTablesReadByAstropy(t *testing.T) {
+func TestTables(t *testing.T) {
+	dir := t.TempDir()
+	files := writeEveryTable(t, dir)
+	t.Run("astropy", func(t *testing.T) { tablesReadByAstropy(t, files) })
+	t.Run("ranking", func(t *testing.T) { rankingParameterColumns(t, dir) })
+}
+
+func tablesReadByAstropy(t *testing.T, files []string) {
 	py := astropyPython()
 	if py == "" {
 		t.Skip("astropy not installed (Debian: apt-get install python3-astropy); .ci/run installs it")
 	}
-	dir := t.TempDir()
-	files := writeEveryTable(t, dir)
 	out, err := exec.Command(py, append([]string{filepath.Join("testdata", "astropy_read.py")}, files...)...).CombinedOutput()
 	if err != nil {
 		t.Fatalf("astropy: %v\n%s", err, out)
@@ -150,9 +155,7 @@ func sameUnit(astropy, declared string) bool {
 
 // compare writes one column per model parameter, with its unit, not a
 // packed text.
-func TestRankingParameterColumns(t *testing.T) {
-	dir := t.TempDir()
-	writeEveryTable(t, dir)
+func rankingParameterColumns(t *testing.T, dir string) {
 	tab, err := ecsv.ReadFile(filepath.Join(dir, "ranking.ecsv"))
 	if err != nil {
 		t.Fatal(err)
