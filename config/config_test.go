@@ -313,7 +313,7 @@ func TestDefaults(t *testing.T) {
 		t.Errorf("output %+v", st.Output)
 	}
 	p := st.Models[0].Params
-	if p.Theta != math.Pi/2 || p.Doppler != 1000 || p.Channels != 256 || p.Saturation != 1e4 || p.Seed.Tb != 2.725 {
+	if p.Theta != math.Pi/2 || p.Doppler != 1000 || p.Channels != 512 || p.Saturation != 1e4 || p.Seed.Tb != 2.725 {
 		t.Errorf("defaults %+v", p)
 	}
 	if len(st.Models) != 1 || st.Models[0].Name != "m0000" || len(st.Swept) != 0 {

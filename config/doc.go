@@ -83,7 +83,7 @@
 //	line.doppler                   km/s     "1 km/s"       > 0 .. 100 km/s, 1/e half-width, sweep          doppler_kms
 //	line.temperature               K        -              > 0 .. 1e5 K, instead of doppler, sweep         T_K
 //	line.turbulence                km/s     "0 km/s"       0 .. 100 km/s, with temperature only, sweep     turb_kms
-//	line.channels                  -        256            16 .. 65536, integer, sweep                     channels
+//	line.channels                  -        512            16 .. 65536, integer, sweep                     channels
 //	line.span                      km/s     "0 km/s"       0 .. 10000 km/s, total span; 0 = automatic, sweep span_kms
 //	rates.gamma_upper              s^-1     "1 s^-1"       > 0 .. 1e9 s^-1, sweep                          gamma_upper_per_s
 //	rates.gamma_lower              s^-1     "1 s^-1"       > 0 .. 1e9 s^-1, sweep                          gamma_lower_per_s

@@ -89,6 +89,10 @@ func StarterNamed(speciesName, name string) (string, error) {
 			val = tomlString(sv.field)
 		case "line.doppler":
 			val = tomlString(sv.doppler)
+		case "field.theta":
+			val = tomlString(starterTheta)
+		case "field.chi":
+			val = tomlString(starterChi)
 		case "line.channels":
 			val = fmt.Sprint(sv.channels)
 		case "line.span":
@@ -165,6 +169,17 @@ var typical = map[string]struct{ field, doppler string }{
 	"oh-like-main": {"", "0.3 km/s"},
 }
 
+// Starter field direction: theta = 60 deg, chi = 30 deg, so that every
+// Stokes spectrum of the first run shows something (V vanishes at theta
+// = 90 deg, U at chi = 0 or 90 deg, Q at chi = 45 deg) and m_l lies on
+// the perpendicular branch beyond the van Vleck angle (55 deg; Goldreich,
+// Keeley & Kwan 1973); 60 deg is also the median angle of isotropically
+// oriented fields (cos theta uniform).
+const (
+	starterTheta = "60 deg"
+	starterChi   = "30 deg"
+)
+
 // Starter run targets.
 const (
 	// validLimit is the largest R/(g Omega) where the populations-only
@@ -172,8 +187,10 @@ const (
 	validLimit        = 0.1
 	starterSaturation = 100.0 // well saturated, the regime of bright masers
 	// starterPerDoppler is the number of channels per Doppler width the
-	// starter aims at (transfer warns below 4).
-	starterPerDoppler  = 12
+	// starter aims at: transfer.MinChannelsPerWidth across the line
+	// narrowed by the gain to saturation, v_D/sqrt(G), with G about 25 for
+	// the default seed (6 x 5 = 30; transfer warns below).
+	starterPerDoppler  = 32
 	maxStarterChannels = 8192
 )
 
@@ -188,7 +205,7 @@ const (
 // with R/(g Omega) <= 0.1 up to the final saturation (the validity of the
 // populations-only model over the whole run; physics.md section 4),
 // keeping the shift below 5 % of the Doppler width (splitting << width).
-// The channels: about 12 per Doppler width over the automatic span, at
+// The channels: about 32 per Doppler width over the automatic span, at
 // least 256 and at most 8192; when the lines spread too far for that (OH's
 // satellite lines lie 50 MHz from the main lines), the span is narrowed
 // to the strong lines. The notes state the validity range of the result.
@@ -235,7 +252,7 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 		return tr, nil
 	}
 
-	// The channel grid for a field: the automatic span when about 12
+	// The channel grid for a field: the automatic span when about 32
 	// channels per Doppler width fit in 8192 channels, else a span over
 	// the strong components, centred where transfer centres the grid.
 	grid := func(b float64) (span, width float64, channels int, err error) {

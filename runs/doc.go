@@ -10,7 +10,7 @@
 //	                   varied_columns, sessions (times, workers, shard),
 //	                   per-model status: done, failed (with the error) or
 //	                   pending
-//	summary.csv        ECSV table, one row per model and checkpoint
+//	summary.ecsv       ECSV table, one row per model and checkpoint
 //	models/m0007.ecsv  the summary rows of one model, with its status; the
 //	                   record that the model is finished
 //	spectra/m0007.ecsv emergent Stokes spectra of one model at every
@@ -26,7 +26,7 @@
 // new one, never half of one. A model counts as finished only when its
 // models/ file exists; the spectrum is written before it. Resume therefore
 // re-runs exactly the models without a models/ file (and failed ones), and
-// summary.csv is rebuilt from models/ at the end of every session.
+// summary.ecsv is rebuilt from models/ at the end of every session.
 //
 // # Determinism
 //

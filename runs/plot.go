@@ -14,33 +14,59 @@ import (
 
 	"maserpol/runs/ecsv"
 	"maserpol/runs/figures"
+
+	"gonum.org/v1/gonum/stat"
 )
 
 // maxCurves is the most curves a figure carries before it is split, so
 // that every curve has a legend entry (figures.DefaultMaxLegend).
 const maxCurves = figures.DefaultMaxLegend
 
+// PlotOptions say how Plot draws.
+type PlotOptions struct {
+	// Formats of the figure files; default png and svg.
+	Formats []string
+	// Titles adds a title above each figure. Journal figures carry none
+	// (the caption says what they show), so the default is without; what
+	// a title said (model, saturation, validity) is in the legends.
+	Titles bool
+	// Note, if not nil, is told about figures skipped.
+	Note func(string)
+	// saved, if not nil, sees every figure after it is written (tests).
+	saved func(fig *figures.Stack, paths []string)
+}
+
 // Plot draws the figures of a run directory from its tables alone
-// (summary.csv and spectra/), into dir/plots, in the given formats
-// (default png and svg). It returns the files written. A figure with
-// nothing to draw is skipped, and note (if not nil) is told so.
+// (summary.ecsv and spectra/), into dir/plots. It returns the files
+// written. A figure with nothing to draw is skipped, and opt.Note is told
+// so.
 //
 //	plots/<model>_spectra.*   I, Q, U, V at the last checkpoint, K
 //	plots/<model>_evolution.* I, Q, U, V over I_peak at up to three checkpoints
 //	plots/saturation[_<tag>][_k].*
-//	                          m_l and P_V against saturation, one curve per
-//	                          model; with more than six models, one figure per
-//	                          value of the first varying parameter, named by it
-//	                          (e.g. saturation_B3G), split further into figures
-//	                          of at most six curves (_1, _2, ...)
-//	plots/theta[_k].*         m_l and EVPA against theta at the last checkpoint,
-//	                          one curve per value of the other parameters
-//	                          (only when theta varies)
-func Plot(dir string, formats []string, note func(string)) ([]string, error) {
+//	                          m_l and signed P_V against saturation, one curve
+//	                          per model; with more than six models, one figure
+//	                          per value of the first varying parameter, named
+//	                          by it (e.g. saturation_B3G), split further into
+//	                          figures of at most six curves (_1, _2, ...)
+//	plots/saturation_spread.* for studies with random draws instead: the
+//	                          median, 16-84 % and full range of m_l and signed
+//	                          P_V over all models against saturation
+//	plots/theta[_k].*         m_l and EVPA (when chi is fixed; else the field-
+//	                          frame Q/I) against theta at the last checkpoint,
+//	                          one curve per value of the other parameters, or
+//	                          one set of points for random draws (only when
+//	                          theta varies)
+//
+// P_V is signed: positive when V is positive on the low-velocity side of
+// the line, i.e. when V = A dI/dv has A > 0 (see signOfV), so that the
+// field direction shows.
+func Plot(dir string, opt PlotOptions) ([]string, error) {
+	formats := opt.Formats
 	if len(formats) == 0 {
 		formats = []string{"png", "svg"}
 	}
-	sum, err := ecsv.ReadFile(filepath.Join(dir, "summary.csv"))
+	sum, err := ecsv.ReadFile(SummaryPath(dir))
 	if err != nil {
 		return nil, err
 	}
@@ -51,6 +77,10 @@ func Plot(dir string, formats []string, note func(string)) ([]string, error) {
 	if len(models) == 0 {
 		return nil, fmt.Errorf("%s: no finished models to plot", sum.File)
 	}
+	random := false
+	if man, err := ReadManifest(dir); err == nil {
+		random = len(man.Seeds) > 0
+	}
 	pd := filepath.Join(dir, "plots")
 	if err := os.MkdirAll(pd, 0o755); err != nil {
 		return nil, err
@@ -59,11 +89,17 @@ func Plot(dir string, formats []string, note func(string)) ([]string, error) {
 	removeOwnFigures(pd, formats)
 	var out []string
 	save := func(fig *figures.Stack, name string) error {
+		if !opt.Titles {
+			fig.Title = ""
+		}
 		p, err := fig.Save(filepath.Join(pd, name), formats)
 		out = append(out, p...)
+		if opt.saved != nil && err == nil {
+			opt.saved(fig, p)
+		}
 		if errors.Is(err, figures.ErrNoData) {
-			if note != nil {
-				note(fmt.Sprintf("figure %s skipped: %v", name, err))
+			if opt.Note != nil {
+				opt.Note(fmt.Sprintf("figure %s skipped: %v", name, err))
 			}
 			return nil
 		}
@@ -74,10 +110,15 @@ func Plot(dir string, formats []string, note func(string)) ([]string, error) {
 			return out, err
 		}
 	}
-	if err := plotSaturation(models, save); err != nil {
+	if random {
+		err = plotSpread(models, save)
+	} else {
+		err = plotSaturation(models, save)
+	}
+	if err != nil {
 		return out, err
 	}
-	if err := plotTheta(models, save); err != nil {
+	if err := plotTheta(models, random, save); err != nil {
 		return out, err
 	}
 	return out, nil
@@ -103,13 +144,29 @@ func removeOwnFigures(pd string, formats []string) {
 	}
 }
 
-// summaryModel is one model's rows of summary.csv.
+// summaryModel is one model's rows of summary.ecsv.
 type summaryModel struct {
 	name, species string
 	params        []param // parameter columns in table order
 	sat, ml, pv   []float64
-	evpa          []float64
+	evpa, qb      []float64
 	valid         []bool
+	// pvSign is the sign of V = A dI/dv at each checkpoint, from the
+	// spectra (0 where V vanishes); set by plotSpectra.
+	pvSign []float64
+}
+
+// signedPV is P_V with the sign of A in V = A dI/dv.
+func (m *summaryModel) signedPV() []float64 {
+	out := make([]float64, len(m.pv))
+	for i, x := range m.pv {
+		s := 1.0
+		if i < len(m.pvSign) {
+			s = m.pvSign[i]
+		}
+		out[i] = s * x
+	}
+	return out
 }
 
 type param struct {
@@ -143,7 +200,7 @@ func readSummary(t *ecsv.Table) ([]*summaryModel, error) {
 		x, err = t.Floats(c)
 		return x
 	}
-	sat, ml, pv, evpa := get("saturation"), get("ml"), get("pv"), get("evpa_deg")
+	sat, ml, pv, evpa, qb := get("saturation"), get("ml"), get("pv"), get("evpa_deg"), get("qb")
 	if err != nil {
 		return nil, err
 	}
@@ -176,13 +233,32 @@ func readSummary(t *ecsv.Table) ([]*summaryModel, error) {
 		cur.ml = append(cur.ml, ml[i])
 		cur.pv = append(cur.pv, pv[i])
 		cur.evpa = append(cur.evpa, evpa[i])
+		cur.qb = append(cur.qb, qb[i])
 		cur.valid = append(cur.valid, valid[i])
 	}
 	return out, nil
 }
 
-// symbols for parameter labels.
-var symbols = map[string]string{"B_mG": "B", "theta_deg": "θ", "chi_deg": "χ", "doppler_kms": "v_D", "T_K": "T", "tb_K": "T_seed", "dOmega_sr": "ΔΩ"}
+// symbols for parameter labels, in the markup of figures.Scripts.
+var symbols = map[string]string{
+	"B_mG": "B", "theta_deg": "θ", "chi_deg": "χ", "doppler_kms": "v_D", "T_K": "T", "turb_kms": "v_{turb}",
+	"tb_K": "T_{seed}", "dOmega_sr": "ΔΩ", "gamma_upper_per_s": "Γ_u", "gamma_lower_per_s": "Γ_l",
+	"ne_cm3": "n_e", "seed_linear": "m_{l,seed}", "seed_circular": "(V/I)_{seed}", "seed_angle_deg": "χ_{seed}",
+	"gain_length_au": "L_g", "span_kms": "span",
+}
+
+// unitText writes an astropy unit string for a figure.
+func unitText(u string) string {
+	switch u {
+	case "km / s":
+		return "km/s"
+	case "1 / s":
+		return "s^{-1}"
+	case "cm-3":
+		return "cm^{-3}"
+	}
+	return u
+}
 
 func paramLabel(p param) string {
 	sym, ok := symbols[p.col.Name]
@@ -191,19 +267,17 @@ func paramLabel(p param) string {
 		for _, u := range unitSuffixes {
 			sym = strings.TrimSuffix(sym, u.suffix)
 		}
+		sym = figures.Escape(sym)
 	}
-	u := p.col.Unit
-	switch u {
-	case "km / s":
-		u = "km/s"
-	case "1 / s":
-		u = "s^-1"
-	}
+	u := unitText(p.col.Unit)
 	x := p.value
 	if u == "mG" && math.Abs(x) >= 1000 {
 		x, u = x/1000, "G"
 	}
-	s := sym + " = " + number(x)
+	if u == "deg" {
+		return sym + " = " + rounded(x, 3) + "°"
+	}
+	s := sym + " = " + rounded(x, 3)
 	if u != "" {
 		s += " " + u
 	}
@@ -211,7 +285,7 @@ func paramLabel(p param) string {
 }
 
 // number writes x with at most four significant digits, without an
-// exponent in the usual range of parameters.
+// exponent in the usual range of parameters (file names).
 func number(x float64) string {
 	if x == 0 || math.Abs(x) >= 1e-3 && math.Abs(x) < 1e6 {
 		r, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'g', 4, 64), 64)
@@ -219,6 +293,25 @@ func number(x float64) string {
 	}
 	return strconv.FormatFloat(x, 'g', 4, 64)
 }
+
+// rounded writes x to the given significant digits, without an exponent
+// between 1e-3 and 1e6 and with a superscript power of ten outside
+// (figure text): R/Γ = 0.9999 reads as 1, 99.98 as 100 with two digits.
+func rounded(x float64, digits int) string {
+	r, _ := strconv.ParseFloat(strconv.FormatFloat(x, 'g', digits, 64), 64)
+	if r == 0 || math.Abs(r) >= 1e-3 && math.Abs(r) < 1e6 {
+		return strconv.FormatFloat(r, 'f', -1, 64)
+	}
+	m, e, _ := strings.Cut(strconv.FormatFloat(r, 'e', -1, 64), "e")
+	ex, _ := strconv.Atoi(e)
+	if m == "1" {
+		return "10^{" + strconv.Itoa(ex) + "}"
+	}
+	return m + "×10^{" + strconv.Itoa(ex) + "}"
+}
+
+// satText is a saturation for a legend, to two significant digits.
+func satText(x float64) string { return "R/Γ = " + rounded(x, 2) }
 
 // varying lists the parameter columns (and species) that differ between
 // models; labels name only those.
@@ -242,7 +335,7 @@ func varying(models []*summaryModel) (cols []string, species bool) {
 func label(m *summaryModel, cols []string, species bool, skip string) string {
 	var parts []string
 	if species {
-		parts = append(parts, m.species)
+		parts = append(parts, figures.Escape(m.species))
 	}
 	for _, p := range m.params {
 		if p.col.Name != skip && slices.Contains(cols, p.col.Name) {
@@ -346,8 +439,14 @@ func plotSpectra(dir string, m *summaryModel, save saver) error {
 	}
 	last := blocks[len(blocks)-1]
 	vel := cols["velocity_kms"][last.from:last.to]
+	if len(blocks) == len(m.sat) {
+		m.pvSign = make([]float64, len(blocks))
+		for k, b := range blocks {
+			m.pvSign[k] = signOfV(cols["velocity_kms"][b.from:b.to], cols["I"][b.from:b.to], cols["V"][b.from:b.to])
+		}
+	}
 	stokes := func(b block, norm bool) figures.Stokes {
-		s := figures.Stokes{Label: "R/Γ = " + number(b.sat)}
+		s := figures.Stokes{Label: satText(b.sat)}
 		scale := 1.0
 		if norm {
 			peak := 0.0
@@ -378,12 +477,21 @@ func plotSpectra(dir string, m *summaryModel, save saver) error {
 			}
 		}
 	}
-	head := m.name + " (" + m.species + "), R/Γ = " + number(last.sat)
+	head := figures.Escape(m.name+" ("+m.species+")") + ", " + satText(last.sat)
+	outside := false
 	if n := len(m.valid); n > 0 && !m.valid[n-1] {
 		head += ", outside R/gΩ ≤ 0.1"
+		outside = true
 	}
 	fig := figures.Spectra(head+"\n"+strings.Join(params, ", "), vel, []figures.Stokes{stokes(last, false)})
 	renote(fig)
+	// Without a title the legend says what the figure shows.
+	fig.Panels[0].Legend = true
+	fig.Panels[0].Curves[0].Label = m.name + ", " + satText(last.sat)
+	fig.Panels[0].Extra = []string{strings.Join(params, ", ")}
+	if outside {
+		fig.Panels[0].Extra = append(fig.Panels[0].Extra, "outside R/gΩ ≤ 0.1")
+	}
 	if err := save(fig, m.name+"_spectra"); err != nil || len(blocks) < 2 {
 		return err
 	}
@@ -411,12 +519,35 @@ func plotSpectra(dir string, m *summaryModel, save saver) error {
 	for _, b := range picked {
 		sts = append(sts, stokes(b, true))
 	}
-	ev := figures.Spectra(m.name+" ("+m.species+")\n"+strings.Join(params, ", "), vel, sts)
+	ev := figures.Spectra(figures.Escape(m.name+" ("+m.species+")")+"\n"+strings.Join(params, ", "), vel, sts)
 	renote(ev)
-	for i, p := range []string{"I/I_peak", "Q/I_peak", "U/I_peak", "V/I_peak"} {
+	ev.Panels[0].Extra = []string{m.name + ": " + strings.Join(params, ", ")}
+	for i, p := range []string{"I/I_{peak}", "Q/I_{peak}", "U/I_{peak}", "V/I_{peak}"} {
 		ev.Panels[i].YLabel = p
 	}
 	return save(ev, m.name+"_evolution")
+}
+
+// signOfV is the sign of A in a least-squares fit V = A dI/dv, i.e. of
+// the sum of V dI/dv over the line: +1 when V is positive on the rising
+// (low-velocity) side of I, -1 when negative, 0 when V vanishes there.
+// It gives P_V, which is a magnitude, the sign of the field's projection
+// on the line of sight (positive B cos theta gives A > 0 for g < 0 in
+// nuclear magnetons, e.g. SiO; see the README's conventions).
+func signOfV(v, i, V []float64) float64 {
+	s := 0.0
+	for k := 1; k+1 < len(v); k++ {
+		if dv := v[k+1] - v[k-1]; dv != 0 {
+			s += V[k] * (i[k+1] - i[k-1]) / dv
+		}
+	}
+	switch {
+	case s > 0:
+		return 1
+	case s < 0:
+		return -1
+	}
+	return 0
 }
 
 // splitCurves splits each model's curve into its valid part (line) and
@@ -489,20 +620,45 @@ func plotSaturation(models []*summaryModel, save saver) error {
 		cols = cols[1:]
 	}
 	for _, g := range groups {
-		parts := chunks(g.ms, maxCurves)
-		for k, ms := range parts {
-			var ml, pv []figures.Curve
-			anyInvalid := false
-			for i, m := range ms {
-				lab := label(m, cols, sp, "")
-				if lab == "" {
-					lab = m.name
+		// Models with the same curves (e.g. theta and 180 deg - theta for
+		// m_l) share one curve and one legend entry, so that no entry
+		// names a curve hidden under another.
+		type entry struct {
+			m      *summaryModel
+			labels []string
+		}
+		var es []*entry
+		for _, m := range g.ms {
+			lab := label(m, cols, sp, "")
+			if lab == "" {
+				lab = m.name
+			}
+			dup := false
+			for _, e := range es {
+				if sameCurves(e.m, m) {
+					e.labels = append(e.labels, lab)
+					dup = true
+					break
 				}
+			}
+			if !dup {
+				es = append(es, &entry{m, []string{lab}})
+			}
+		}
+		parts := chunks(es, maxCurves)
+		for k, part := range parts {
+			var ml, pv []figures.Curve
+			var ms []*summaryModel
+			anyInvalid := false
+			for i, e := range part {
+				m := e.m
+				ms = append(ms, m)
+				lab := strings.Join(e.labels, "; ")
 				// P_V below 1e-9 is round-off (theta = 90 deg).
-				p := make([]float64, len(m.pv))
-				for j, x := range m.pv {
-					if !(math.Abs(x) <= figures.RoundoffLevel) { // keeps NaN
-						p[j] = x
+				p := m.signedPV()
+				for j, x := range p {
+					if math.Abs(x) <= figures.RoundoffLevel { // keeps NaN
+						p[j] = 0
 					}
 				}
 				ml = append(ml, splitCurves(m.sat, m.ml, m.valid, lab, i)...)
@@ -515,10 +671,13 @@ func plotSaturation(models []*summaryModel, save saver) error {
 			if g.title != "" {
 				title += ", " + g.title
 			}
-			if anyInvalid {
-				title += "\nmarkers: outside R/gΩ ≤ 0.1"
-			}
 			fig := figures.Saturation(title, ml, pv)
+			if g.title != "" {
+				fig.Panels[0].Extra = append(fig.Panels[0].Extra, "all: "+g.title)
+			}
+			if anyInvalid {
+				fig.Panels[0].Extra = append(fig.Panels[0].Extra, "markers: R/gΩ > 0.1")
+			}
 			figures.ZeroRoundoff(&fig.Panels[1], 0, roundoffNote("P_V", ms))
 			name := "saturation" + g.tag
 			if len(parts) > 1 {
@@ -532,12 +691,39 @@ func plotSaturation(models []*summaryModel, save saver) error {
 	return nil
 }
 
-func plotTheta(models []*summaryModel, save saver) error {
+// sameCurves reports whether two models have the same m_l and P_V
+// against saturation, to drawing precision.
+func sameCurves(a, b *summaryModel) bool {
+	if len(a.sat) != len(b.sat) {
+		return false
+	}
+	pa, pb := a.signedPV(), b.signedPV()
+	for i := range a.sat {
+		if a.sat[i] != b.sat[i] || math.Abs(a.ml[i]-b.ml[i]) > 1e-6 || math.Abs(pa[i]-pb[i]) > 1e-6*math.Max(1e-3, math.Abs(pa[i])) {
+			return false
+		}
+	}
+	return true
+}
+
+func plotTheta(models []*summaryModel, random bool, save saver) error {
 	cols, sp := varying(models)
 	if !slices.Contains(cols, "theta_deg") {
 		return nil
 	}
+	// The EVPA is a sky angle: against theta it means something only when
+	// chi is the same for every model. Otherwise the second panel is the
+	// field-frame Q/I, whose sign tells parallel from perpendicular.
+	evpa := !slices.Contains(cols, "chi_deg")
+	second := func(m *summaryModel, n int) float64 {
+		if evpa {
+			return m.evpa[n]
+		}
+		return m.qb[n]
+	}
 	// Group by everything but theta; order groups by first appearance.
+	// Random draws form one group of points: every model differs in
+	// something, and a legend entry per point says nothing.
 	type group struct {
 		label string
 		ms    []*summaryModel
@@ -546,6 +732,9 @@ func plotTheta(models []*summaryModel, save saver) error {
 	idx := map[string]*group{}
 	for _, m := range models {
 		lab := label(m, cols, sp, "theta_deg")
+		if random {
+			lab = ""
+		}
 		g, ok := idx[lab]
 		if !ok {
 			g = &group{label: lab}
@@ -565,35 +754,187 @@ func plotTheta(models []*summaryModel, save saver) error {
 				tb, _ := g.ms[b].value("theta_deg")
 				return ta < tb
 			})
-			c1 := figures.Curve{Label: g.label, Style: i, Points: true}
-			c2 := figures.Curve{Style: i, Points: true}
+			c1 := figures.Curve{Label: g.label, Style: i, Points: true, NoLine: random}
+			c2 := figures.Curve{Style: i, Points: true, NoLine: random}
+			bad1 := figures.Curve{Style: i + 1, Points: true, NoLine: true}
+			bad2 := figures.Curve{Style: i + 1, Points: true, NoLine: true}
 			for _, m := range g.ms {
 				th, _ := m.value("theta_deg")
 				n := len(m.sat) - 1
-				c1.X, c1.Y = append(c1.X, th), append(c1.Y, m.ml[n])
-				c2.X, c2.Y = append(c2.X, th), append(c2.Y, m.evpa[n])
+				if random && !m.valid[n] {
+					bad1.X, bad1.Y = append(bad1.X, th), append(bad1.Y, m.ml[n])
+					bad2.X, bad2.Y = append(bad2.X, th), append(bad2.Y, second(m, n))
+				} else {
+					c1.X, c1.Y = append(c1.X, th), append(c1.Y, m.ml[n])
+					c2.X, c2.Y = append(c2.X, th), append(c2.Y, second(m, n))
+				}
 				anyInvalid = anyInvalid || !m.valid[n]
 				satLo, satHi = math.Min(satLo, m.sat[n]), math.Max(satHi, m.sat[n])
 			}
 			if c1.Label == "" {
 				c1.Label = "all models"
+				if random {
+					c1.Label = "R/gΩ ≤ 0.1 (" + strconv.Itoa(len(c1.X)) + " models)"
+					bad1.Label = "R/gΩ > 0.1 (" + strconv.Itoa(len(bad1.X)) + ")"
+				}
 			}
-			ml, ev = append(ml, c1), append(ev, c2)
+			merged := false
+			for j := range ml {
+				if sameXY(ml[j], c1) && sameXY(ev[j], c2) {
+					ml[j].Label += "; " + c1.Label // drawn once, named once
+					merged = true
+					break
+				}
+			}
+			if !merged {
+				ml, ev = append(ml, c1), append(ev, c2)
+			}
+			if len(bad1.X) > 0 {
+				ml, ev = append(ml, bad1), append(ev, bad2)
+			}
 		}
-		title := "at the last checkpoint, R/Γ = " + number(satHi)
+		at := "last checkpoint, " + satText(satHi)
 		if satHi > satLo*1.01 {
-			title = "at the last checkpoint, R/Γ = " + number(satLo) + " to " + number(satHi)
+			at = "last checkpoint, R/Γ = " + rounded(satLo, 2) + " to " + rounded(satHi, 2)
 		}
-		if anyInvalid {
+		title := "at the " + at
+		if anyInvalid && !random {
 			title += "\nsome points outside R/gΩ ≤ 0.1"
 		}
 		name := "theta"
 		if len(parts) > 1 {
 			name += "_" + strconv.Itoa(k+1)
 		}
-		if err := save(figures.Theta(title, ml, ev), name); err != nil {
+		fig := figures.Theta(title, ml, ev)
+		fig.Panels[0].Extra = append(fig.Panels[0].Extra, at)
+		if anyInvalid && !random {
+			fig.Panels[0].Extra = append(fig.Panels[0].Extra, "some points R/gΩ > 0.1")
+		}
+		if !evpa {
+			fig.Panels[1].YLabel = "Q/I, field frame"
+			for i := range fig.Panels[1].Curves {
+				fig.Panels[1].Curves[i].BreakAbove = 0
+			}
+			fig.Panels[1].ZeroLine = true
+		}
+		if err := save(fig, name); err != nil {
 			return err
 		}
 	}
 	return nil
+}
+
+// sameXY reports whether two curves coincide to drawing precision.
+func sameXY(a, b figures.Curve) bool {
+	if len(a.X) != len(b.X) || len(a.X) == 0 {
+		return false
+	}
+	for i := range a.X {
+		if a.X[i] != b.X[i] || math.Abs(a.Y[i]-b.Y[i]) > 1e-4*math.Max(1, math.Abs(a.Y[i])) {
+			return false
+		}
+	}
+	return true
+}
+
+// plotSpread draws, for a study of random draws, the spread of m_l and
+// signed P_V over all models against saturation: the median, the central
+// 68 % (16th to 84th percentile) and the full range at each saturation,
+// each model interpolated (in log R/Γ) onto a common grid of eight points
+// per decade. It replaces figures of a handful of arbitrary curves.
+func plotSpread(models []*summaryModel, save saver) error {
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, m := range models {
+		for _, x := range m.sat {
+			if x > 0 && !math.IsInf(x, 0) {
+				lo, hi = math.Min(lo, x), math.Max(hi, x)
+			}
+		}
+	}
+	if !(lo < hi) {
+		return plotSaturation(models, save)
+	}
+	const perDecade = 8
+	n := int(math.Ceil(math.Log10(hi/lo)*perDecade)) + 1
+	grid := make([]float64, n)
+	for i := range grid {
+		grid[i] = math.Min(hi, lo*math.Pow(10, float64(i)/perDecade))
+	}
+	invalid, total := 0, 0
+	panel := func(y func(*summaryModel) []float64) figures.Panel {
+		var x, q0, q16, q50, q84, q100 []float64
+		vals := make([]float64, 0, len(models))
+		for _, s := range grid {
+			vals = vals[:0]
+			for _, m := range models {
+				if v, ok := interpLog(m.sat, y(m), s); ok {
+					vals = append(vals, v)
+				}
+			}
+			// A grid point that few models reach would make the
+			// quantiles jump: at least half of them, and three.
+			if len(vals) < max(3, (len(models)+1)/2) && len(vals) < len(models) {
+				continue
+			}
+			sort.Float64s(vals)
+			x = append(x, s)
+			q0, q100 = append(q0, vals[0]), append(q100, vals[len(vals)-1])
+			q16 = append(q16, stat.Quantile(0.16, stat.LinInterp, vals, nil))
+			q50 = append(q50, stat.Quantile(0.5, stat.LinInterp, vals, nil))
+			q84 = append(q84, stat.Quantile(0.84, stat.LinInterp, vals, nil))
+		}
+		return figures.Panel{
+			Bands: []figures.Band{
+				{Label: "full range", X: x, Lo: q0, Hi: q100, Style: 0, Alpha: 0.15},
+				{Label: "16–84 %", X: x, Lo: q16, Hi: q84, Style: 0, Alpha: 0.35},
+			},
+			Curves: []figures.Curve{{Label: "median", X: x, Y: q50, Style: 0}},
+		}
+	}
+	for _, m := range models {
+		for _, v := range m.valid {
+			total++
+			if !v {
+				invalid++
+			}
+		}
+	}
+	mlp := panel(func(m *summaryModel) []float64 { return m.ml })
+	mlp.YLabel, mlp.Legend = "m_l", true
+	mlp.Extra = []string{strconv.Itoa(len(models)) + " models"}
+	if invalid > 0 {
+		mlp.Extra = append(mlp.Extra, rounded(100*float64(invalid)/float64(total), 2)+" % of points R/gΩ > 0.1")
+	}
+	pvp := panel(func(m *summaryModel) []float64 { return m.signedPV() })
+	pvp.YLabel, pvp.ZeroLine, pvp.AutoLogY = "signed P_V", true, true
+	fig := &figures.Stack{Title: "spread over " + strconv.Itoa(len(models)) + " random models", XLabel: "saturation R/Γ", LogX: true,
+		Panels: []figures.Panel{mlp, pvp}}
+	return save(fig, "saturation_spread")
+}
+
+// interpLog interpolates y(x) linearly in log x at x0; ok is false outside
+// the model's range or at a NaN.
+func interpLog(x, y []float64, x0 float64) (float64, bool) {
+	// Within 3 % beyond either end a model counts as reaching x0: a column
+	// ends at R/Gamma = 99.98 for a target of 100.
+	if n := len(x); n > 0 {
+		switch {
+		case x0 > x[n-1] && x0 <= x[n-1]*1.03:
+			return y[n-1], !math.IsNaN(y[n-1])
+		case x0 < x[0] && x0 >= x[0]/1.03:
+			return y[0], !math.IsNaN(y[0])
+		}
+	}
+	for i := 1; i < len(x); i++ {
+		a, b := x[i-1], x[i]
+		if a > 0 && b > a && x0 >= a && x0 <= b {
+			t := math.Log(x0/a) / math.Log(b/a)
+			v := y[i-1] + t*(y[i]-y[i-1])
+			return v, !math.IsNaN(v)
+		}
+	}
+	if len(x) > 0 && x0 == x[0] {
+		return y[0], !math.IsNaN(y[0])
+	}
+	return 0, false
 }

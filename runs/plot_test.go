@@ -5,11 +5,13 @@ import (
 	"errors"
 	"math"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"strings"
 	"testing"
 
 	"maserpol/runs/ecsv"
+	"maserpol/runs/figures"
 	"maserpol/transfer"
 )
 
@@ -90,7 +92,7 @@ func TestPlotKeepsOtherFormats(t *testing.T) {
 	for _, f := range []string{"theta_9.svg", "theta_9.pdf", "notes.svg"} {
 		os.WriteFile(filepath.Join(pd, f), []byte("old"), 0o644)
 	}
-	if _, err := Plot(dir, []string{"pdf"}, nil); err != nil {
+	if _, err := Plot(dir, PlotOptions{Formats: []string{"pdf"}}); err != nil {
 		t.Fatal(err)
 	}
 	for f, want := range map[string]bool{
@@ -125,7 +127,7 @@ func TestSaturationFigureNames(t *testing.T) {
 func TestSpectraCarryValidity(t *testing.T) {
 	dir := t.TempDir()
 	execute(t, study(t, cfg2x3), dir, Options{})
-	sum, err := ecsv.ReadFile(filepath.Join(dir, "summary.csv"))
+	sum, err := ecsv.ReadFile(filepath.Join(dir, "summary.ecsv"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -203,5 +205,140 @@ func TestPlotSkipsEmptyFigure(t *testing.T) {
 	}
 	if _, err := os.Stat(filepath.Join(dir, "plots", "m0000_spectra.svg")); err != nil {
 		t.Error(err)
+	}
+}
+
+// A study of random draws gets one spread figure of m_l and P_V against
+// saturation instead of figures of six arbitrary curves, and its theta
+// figure is one set of points, not a legend entry per model. Every PNG
+// panel shows ink; Ghostscript renders every PDF and EPS (outside check:
+// the Ghostscript interpreter; skipped when gs is absent).
+func TestPlotRandomStudy(t *testing.T) {
+	const cfg = `species = "sio-v1-j1-0"
+[field]
+strength = "1 G"
+theta = { dist = "isotropic-angle", n = 5, seed = 3 }
+chi = { dist = "uniform", from = "0 deg", to = "90 deg", n = 5 }
+[line]
+channels = 32
+[output]
+plots = false
+`
+	dir := t.TempDir()
+	execute(t, study(t, cfg), dir, Options{})
+	var figs []*figures.Stack
+	var paths [][]string
+	out, err := Plot(dir, PlotOptions{Formats: []string{"png", "pdf", "eps"}, saved: func(f *figures.Stack, p []string) {
+		figs, paths = append(figs, f), append(paths, p)
+	}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	names := map[string]bool{}
+	for _, p := range out {
+		names[filepath.Base(p)] = true
+	}
+	if !names["saturation_spread.png"] || !names["theta.png"] {
+		t.Fatalf("figures %v", out)
+	}
+	for n := range names {
+		if strings.HasPrefix(n, "saturation_") && !strings.HasPrefix(n, "saturation_spread") {
+			t.Errorf("random study drew %s", n)
+		}
+	}
+	for i, f := range figs {
+		if f.Title != "" {
+			t.Errorf("%s: title %q drawn by default", paths[i][0], f.Title)
+		}
+		if strings.HasSuffix(paths[i][0], "theta.png") {
+			// chi varies: no EVPA against theta, and one series of points.
+			if f.Panels[1].YLabel == "EVPA (deg)" {
+				t.Error("EVPA drawn against theta while chi varies")
+			}
+			if n := len(f.Panels[0].Curves); n > 2 {
+				t.Errorf("theta figure of a random study has %d series", n)
+			}
+		}
+		empty, err := figures.EmptyPanels(paths[i][0], f)
+		if err != nil || len(empty) > 0 {
+			t.Errorf("%s: empty panels %v (%v)", paths[i][0], empty, err)
+		}
+	}
+	if _, err := exec.LookPath("gs"); err != nil {
+		t.Skip("Ghostscript not installed; .ci/run installs it")
+	}
+	for _, p := range out {
+		// The study figures and one model's (the others are alike).
+		if b := filepath.Base(p); !strings.HasPrefix(b, "saturation") && !strings.HasPrefix(b, "theta") && !strings.HasPrefix(b, "m0000") {
+			continue
+		}
+		if ext := filepath.Ext(p); ext == ".pdf" || ext == ".eps" {
+			args := []string{"-q", "-dSAFER", "-dBATCH", "-dNOPAUSE", "-dPDFSTOPONERROR", "-sDEVICE=nullpage"}
+			if ext == ".eps" {
+				args = append(args, "-dEPSCrop")
+			}
+			if msg, err := exec.Command("gs", append(args, p)...).CombinedOutput(); err != nil || len(strings.TrimSpace(string(msg))) > 0 {
+				t.Errorf("gs %s: %v %s", filepath.Base(p), err, msg)
+			}
+		}
+	}
+}
+
+// P_V is drawn with the sign of A in V = A dI/dv: opposite for theta and
+// 180 deg - theta (B cos theta changes sign), so the field direction shows.
+func TestSignedPV(t *testing.T) {
+	v := []float64{-2, -1, 0, 1, 2}
+	i := []float64{0.1, 0.5, 1, 0.5, 0.1}
+	dIdv := []float64{0.4, 0.45, 0, -0.45, -0.4}
+	for _, a := range []float64{2, -3} {
+		V := make([]float64, len(v))
+		for k := range V {
+			V[k] = a * dIdv[k]
+		}
+		if s := signOfV(v, i, V); s != math.Copysign(1, a) {
+			t.Errorf("A = %g: sign %g", a, s)
+		}
+	}
+	if signOfV(v, i, make([]float64, 5)) != 0 {
+		t.Error("V = 0 has a sign")
+	}
+	cfg := strings.Replace(cfg2x3, `["30 deg", "60 deg", "90 deg"]`, `["30 deg", "150 deg"]`, 1)
+	dir := t.TempDir()
+	execute(t, study(t, cfg), dir, Options{})
+	var pv []figures.Curve
+	if _, err := Plot(dir, PlotOptions{Formats: []string{"png"}, saved: func(f *figures.Stack, p []string) {
+		if strings.Contains(p[0], "saturation") {
+			pv = append(pv, f.Panels[1].Curves...)
+		}
+	}}); err != nil {
+		t.Fatal(err)
+	}
+	pos, neg := 0, 0
+	for _, c := range pv {
+		for _, y := range c.Y {
+			if y > 0 {
+				pos++
+			} else if y < 0 {
+				neg++
+			}
+		}
+	}
+	if pos == 0 || neg == 0 {
+		t.Errorf("P_V of theta = 30 and 150 deg: %d positive, %d negative points; want both", pos, neg)
+	}
+}
+
+// A model that ends within 3 % of a grid point reaches it (a column stops
+// at R/Gamma = 99.98 for a target of 100); beyond that it does not.
+func TestInterpLogEnds(t *testing.T) {
+	x, y := []float64{0.001, 1, 99.98}, []float64{0, 0.1, 0.3}
+	if v, ok := interpLog(x, y, 100); !ok || v != 0.3 {
+		t.Errorf("at 100: %g %v", v, ok)
+	}
+	if _, ok := interpLog(x, y, 110); ok {
+		t.Error("110 counted as reached")
+	}
+	if v, ok := interpLog(x, y, math.Sqrt(0.001)); !ok || math.Abs(v-0.05) > 1e-12 {
+		t.Errorf("midpoint in log: %g", v)
 	}
 }

@@ -42,6 +42,7 @@ type Options struct {
 	Progress io.Writer // progress bar (terminal) or lines; nil = silent
 	Model    ModelFunc // nil = transfer.Run
 	NoPlots  bool      // do not draw figures even if the config asks for them
+	Titles   bool      // figures with titles (see PlotOptions)
 }
 
 // Report tells what a session did.
@@ -109,7 +110,7 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	if err != nil {
 		return nil, err
 	}
-	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, "summary.csv"), Manifest: filepath.Join(dir, "manifest.json")}
+	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, SummaryName), Manifest: filepath.Join(dir, "manifest.json")}
 
 	// The models/ files are the record of what is finished.
 	var todo []int
@@ -259,7 +260,7 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		writeErr = err
 	}
 	if ctx.Err() == nil && writeErr == nil && st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
-		figs, err := Plot(dir, st.Output.Formats, func(n string) { rep.Notes = append(rep.Notes, n) })
+		figs, err := Plot(dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
 		rep.Figures = figs
 		if err != nil {
 			writeErr = &PlotError{err}
@@ -473,7 +474,7 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 	if cols == nil {
 		return vs, nil
 	}
-	return vs, writeAtomic(filepath.Join(dir, "summary.csv"), func(out io.Writer) error {
+	err := writeAtomic(filepath.Join(dir, SummaryName), func(out io.Writer) error {
 		w := ecsv.NewWriter(out, cols, meta)
 		for _, t := range tabs {
 			for _, r := range t.Rows {
@@ -484,4 +485,8 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 		}
 		return w.Flush()
 	})
+	if err == nil {
+		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
+	}
+	return vs, err
 }

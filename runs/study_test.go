@@ -93,7 +93,7 @@ func execute(t testing.TB, st *config.Study, dir string, opt Options) *Report {
 func tables(t testing.TB, dir string) map[string]string {
 	t.Helper()
 	out := map[string]string{}
-	for _, pat := range []string{"config.toml", "summary.csv", "models/*.ecsv", "spectra/*.ecsv"} {
+	for _, pat := range []string{"config.toml", "summary.ecsv", "models/*.ecsv", "spectra/*.ecsv"} {
 		files, _ := filepath.Glob(filepath.Join(dir, pat))
 		for _, f := range files {
 			data, err := os.ReadFile(f)
@@ -138,7 +138,7 @@ func TestTablesIndependentOfWorkers(t *testing.T) {
 
 	// The summary parses, has one row per model and checkpoint, and the
 	// documented columns with units.
-	sum, err := ecsv.ReadFile(filepath.Join(d1, "summary.csv"))
+	sum, err := ecsv.ReadFile(filepath.Join(d1, "summary.ecsv"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -378,7 +378,7 @@ func TestFailedModelRecorded(t *testing.T) {
 	if nf != 2 || man.Status != StudyFailed {
 		t.Errorf("manifest: %d failed, status %s", nf, man.Status)
 	}
-	sum, _ := ecsv.ReadFile(filepath.Join(d, "summary.csv"))
+	sum, _ := ecsv.ReadFile(filepath.Join(d, "summary.ecsv"))
 	if len(sum.Rows) != 4*5 {
 		t.Errorf("summary has %d rows, want 20 (failed models have none)", len(sum.Rows))
 	}
@@ -434,5 +434,31 @@ func TestParseShard(t *testing.T) {
 	sh, err := ParseShard("2/3")
 	if err != nil || !sh.Holds(1) || sh.Holds(0) || !sh.Holds(4) {
 		t.Errorf("2/3: %v %v", sh, err)
+	}
+}
+
+// A run directory of an earlier version has summary.csv: it is still read
+// (SummaryPath), and a resume replaces it by summary.ecsv, which astropy
+// opens by its extension.
+func TestLegacySummaryName(t *testing.T) {
+	st := study(t, cfg2x3)
+	d := t.TempDir()
+	execute(t, st, d, Options{Workers: 2})
+	ecsvPath := filepath.Join(d, SummaryName)
+	if err := os.Rename(ecsvPath, filepath.Join(d, "summary.csv")); err != nil {
+		t.Fatal(err)
+	}
+	if got := SummaryPath(d); got != filepath.Join(d, "summary.csv") {
+		t.Errorf("SummaryPath of a legacy directory = %s", got)
+	}
+	execute(t, st, d, Options{Resume: true})
+	if _, err := os.Stat(ecsvPath); err != nil {
+		t.Errorf("resume did not write %s: %v", SummaryName, err)
+	}
+	if _, err := os.Stat(filepath.Join(d, "summary.csv")); !os.IsNotExist(err) {
+		t.Errorf("legacy summary.csv left beside %s (err %v)", SummaryName, err)
+	}
+	if got := SummaryPath(d); got != ecsvPath {
+		t.Errorf("SummaryPath = %s, want %s", got, ecsvPath)
 	}
 }

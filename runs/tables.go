@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
+	"path/filepath"
 	"slices"
 	"strconv"
 	"strings"
@@ -49,7 +51,7 @@ var (
 		{Name: "valid", Datatype: ecsv.Bool, Description: "True where the model of this checkpoint holds: r_over_doppler <= 0.1 and, for rates, R/(g Omega) <= 0.1, for density, flat_spectrum <= 0.01"},
 	}
 	spectrumColumns = []ecsv.Column{
-		{Name: "checkpoint", Datatype: ecsv.Int64, Description: "checkpoint index, matches summary.csv"},
+		{Name: "checkpoint", Datatype: ecsv.Int64, Description: "checkpoint index, matches summary.ecsv"},
 		{Name: "saturation", Datatype: ecsv.Float64, Description: "saturation R/Gamma at line centre at this checkpoint"},
 		{Name: "velocity_kms", Unit: "km / s", Datatype: ecsv.Float64, Description: "channel velocity relative to the line rest frequency"},
 		{Name: "I", Unit: "K", Datatype: ecsv.Float64, Description: "Stokes I, brightness temperature"},
@@ -276,4 +278,30 @@ func populationOf(cp transfer.Checkpoint) string {
 		return transfer.Density.String()
 	}
 	return transfer.Rates.String()
+}
+
+// SummaryName is the file name of the summary table of a run directory.
+// The .ecsv extension lets astropy's Table.read pick the format by itself.
+const SummaryName = "summary.ecsv"
+
+// legacySummaryName is the summary table's name in run directories written
+// before version 0.2; they are still read, and a resumed or merged run
+// replaces the file by SummaryName.
+const legacySummaryName = "summary.csv"
+
+// SummaryPath returns the path of the summary table of the run directory
+// dir: SummaryName, or the legacy summary.csv when only that exists.
+func SummaryPath(dir string) string {
+	p := filepath.Join(dir, SummaryName)
+	if _, err := os.Stat(p); err != nil {
+		if old := filepath.Join(dir, legacySummaryName); fileExists(old) {
+			return old
+		}
+	}
+	return p
+}
+
+func fileExists(p string) bool {
+	_, err := os.Stat(p)
+	return err == nil
 }

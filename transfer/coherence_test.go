@@ -99,11 +99,11 @@ func TestCoherentSymmetry(t *testing.T) {
 		tr   *levels.Transition
 		p    Params
 	}{
-		{"J=1-0 B=0 theta 60", j10(0.5, 0), Params{Theta: deg(60), Doppler: 1000, Saturation: 1e4, Population: Density}},
-		{"J=1-0 B=0 theta 20 auto", j10(0.5, 0), Params{Theta: deg(20), Doppler: 1000, Saturation: 1e4}},
-		{"J=2-1 B=0 theta 75", j21(t, 0, 1), Params{Theta: deg(75), Doppler: 1000, Saturation: 1e3, Population: Density, CheckpointsPerDecade: 2}},
-		{"J=1-0 theta 0", j10Split(10, 10), Params{Theta: 0, Doppler: 1000, Saturation: 1e4, Population: Density}},
-		{"J=2-1 theta 0", j21(t, 10, 10), Params{Theta: 0, Doppler: 1000, Saturation: 1e3, Population: Density, CheckpointsPerDecade: 2}},
+		{"J=1-0 B=0 theta 60", j10(0.5, 0), Params{Channels: 128, Theta: deg(60), Doppler: 1000, Saturation: 1e4, Population: Density}},
+		{"J=1-0 B=0 theta 20 auto", j10(0.5, 0), Params{Channels: 128, Theta: deg(20), Doppler: 1000, Saturation: 1e4}},
+		{"J=2-1 B=0 theta 75", j21(t, 0, 1), Params{Channels: 128, Theta: deg(75), Doppler: 1000, Saturation: 1e3, Population: Density, CheckpointsPerDecade: 2}},
+		{"J=1-0 theta 0", j10Split(10, 10), Params{Channels: 128, Theta: 0, Doppler: 1000, Saturation: 1e4, Population: Density}},
+		{"J=2-1 theta 0", j21(t, 10, 10), Params{Channels: 128, Theta: 0, Doppler: 1000, Saturation: 1e3, Population: Density, CheckpointsPerDecade: 2}},
 	} {
 		_, tj := runModel(t, tc.tr, tc.p)
 		maxR := 0.0
@@ -319,7 +319,7 @@ func TestCoherentEnergy(t *testing.T) {
 		tr   *levels.Transition
 		p    Params
 	}{
-		{"J=1-0 R ~ gOmega", j10Split(30, 10), Params{Theta: deg(60), Doppler: 1000, Saturation: 300, Population: Density}},
+		{"J=1-0 R ~ gOmega", j10Split(30, 10), Params{Channels: 128, Theta: deg(60), Doppler: 1000, Saturation: 300, Population: Density}},
 		{"J=2-1 polarized seed", j21(t, 30, 10), Params{Theta: deg(35), Doppler: 1000, Saturation: 100, Population: Density,
 			Seed: Seed{Tb: 50, LinearFraction: 0.5, CircularFraction: 0.2, Angle: 0.3}}},
 	} {
@@ -396,7 +396,7 @@ func TestCoherentBadInput(t *testing.T) {
 	for i := range bare.Lines {
 		bare.Lines[i].Amplitude = 0
 	}
-	if _, err := NewModel(bare, Params{Theta: 1, Doppler: 1000, Population: Density}); err == nil || !strings.Contains(err.Error(), "amplitude") {
+	if _, err := NewModel(bare, Params{Channels: 128, Theta: 1, Doppler: 1000, Population: Density}); err == nil || !strings.Contains(err.Error(), "amplitude") {
 		t.Errorf("lines without amplitudes: error %v", err)
 	}
 }
@@ -407,7 +407,7 @@ func TestCoherentBadInput(t *testing.T) {
 // (physics.md section 8, reduction), to rounding.
 func TestCoherentNoPairs(t *testing.T) {
 	tr := j21(t, 1e6, 10)
-	p := Params{Theta: deg(50), Doppler: 1000, Saturation: 100, CheckpointsPerDecade: 2, CoherenceThreshold: 1}
+	p := Params{Channels: 128, Theta: deg(50), Doppler: 1000, Saturation: 100, CheckpointsPerDecade: 2, CoherenceThreshold: 1}
 	p.Population = Density
 	md, d := runModel(t, tr, p)
 	if md.cs.dim != md.cs.nU+md.cs.nL {
@@ -428,7 +428,7 @@ func TestCoherentNoPairs(t *testing.T) {
 // saturation and the reason (physics.md section 8, caution 1), never as a
 // NaN.
 func TestCoherentNotPhysicalMessage(t *testing.T) {
-	m, err := NewModel(j10Split(100, 10), Params{Theta: 1, Doppler: 1000, Population: Density})
+	m, err := NewModel(j10Split(100, 10), Params{Channels: 128, Theta: 1, Doppler: 1000, Population: Density})
 	if err != nil {
 		t.Fatal(err)
 	}

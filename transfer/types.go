@@ -97,7 +97,7 @@ type Params struct {
 	// through DopplerWidth when Doppler is zero.
 	Temperature float64
 	Turbulence  float64
-	Channels    int     // default 256
+	Channels    int     // default DefaultChannels
 	Span        float64 // total velocity span of the channel grid, m/s; 0 = automatic
 
 	GammaUpper float64 // decay rate of upper eigenstates, s^-1

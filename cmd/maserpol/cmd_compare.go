@@ -9,11 +9,12 @@ import (
 	"text/tabwriter"
 
 	"maserpol/config/units"
+	"maserpol/runs/figures"
 	"maserpol/runs/interpret"
 )
 
 const (
-	compareArgs    = "RUNDIR OBSERVED [--stokes IQUV] [--velocity-unit U] [--intensity-unit U] [--max-shift V] [--top N] [--csv FILE] [--plot FILE]"
+	compareArgs    = "RUNDIR OBSERVED [--stokes IQUV] [--velocity-unit U] [--intensity-unit U] [--max-shift V] [--top N] [--table FILE] [--plot FILE]"
 	compareSummary = "fit every model of a run directory to an observed spectrum and rank them by chi-square"
 )
 
@@ -23,10 +24,11 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	stokes := fs.String("stokes", "IQUV", "Stokes parameters to fit (I is required)")
 	vunit := fs.String("velocity-unit", "", "velocity unit when the file gives none (e.g. km/s)")
 	iunit := fs.String("intensity-unit", "", "intensity unit when the file gives none (K, mK; other units are kept and the scale is per K)")
-	maxShift := fs.String("max-shift", "", "largest velocity shift of the models, e.g. \"30 km/s\" (default: unbounded)")
-	top := fs.Int("top", 3, "number of best models to print in detail and plot")
-	csvPath := fs.String("csv", "", "write the full ranking as CSV to this file")
+	maxShift := fs.String("max-shift", "", "largest velocity shift of the models in km/s (or with a unit), e.g. 30 (default: unbounded)")
+	top := fs.Int("top", 3, "number of best models to print and plot (--table writes all)")
+	tablePath := fs.String("table", "", "write the full ranking to this file: .ecsv (with units) or .csv (plain)")
 	plotPath := fs.String("plot", "", "plot the best models over the data (format from the extension: png, svg, pdf, eps)")
+	titles := fs.Bool("titles", false, "put a title above the figure (journal figures have none)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -38,9 +40,14 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	if *top < 1 {
 		return report(stderr, usagef("--top %d: allowed >= 1", *top))
 	}
+	if *tablePath != "" {
+		if _, err := checkTablePath("table", *tablePath); err != nil {
+			return report(stderr, err)
+		}
+	}
 	var opt interpret.FitOptions
 	if *maxShift != "" {
-		if opt.MaxShift, err = units.Parse(*maxShift, units.Velocity); err != nil || !(opt.MaxShift > 0) {
+		if opt.MaxShift, err = units.ParsePlain(*maxShift, units.Velocity, "km/s"); err != nil || !(opt.MaxShift > 0) {
 			return report(stderr, usagef("--max-shift %q: need a velocity > 0 (allowed units: %s)", *maxShift, units.Allowed(units.Velocity)))
 		}
 	}
@@ -69,14 +76,18 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	if n := atBound(rk); n > 0 {
 		fmt.Fprintf(stderr, "maserpol: warning: the best shift of %d of %d models sits at --max-shift %s: the optimum may lie beyond it; widen --max-shift or check the velocity frame\n", n, len(rk), *maxShift)
 	}
-	if *csvPath != "" {
-		if err := writeAtomically(*csvPath, rankingCSV(obs, rk)); err != nil {
+	if *tablePath != "" {
+		if err := writeRanking(*tablePath, obs, rk); err != nil {
 			return report(stderr, err)
 		}
-		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *tablePath)
 	}
 	if *plotPath != "" {
-		paths, err := saveFigure(interpret.CompareFigure(obs, rk[:min(*top, len(rk))], "best models over "+obs.File), *plotPath)
+		title := ""
+		if *titles {
+			title = "best models over " + figures.Escape(obs.File)
+		}
+		paths, err := saveFigure(interpret.CompareFigure(obs, rk[:min(*top, len(rk))], title), *plotPath)
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -149,8 +160,8 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 	fmt.Fprintln(tw, hdr+"\treduced chi2")
 	shown, outside, bound, zero := 0, 0, 0, 0
 	for i, r := range rk {
-		if i >= top && i >= 10 {
-			fmt.Fprintf(tw, "...\t(%d more models; --csv for all)\n", len(rk)-i)
+		if i >= top {
+			fmt.Fprintf(tw, "...\t(%d more models; --table for all)\n", len(rk)-i)
 			break
 		}
 		shown++
@@ -183,26 +194,4 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 		fmt.Fprintf(w, "Scale: held >= 0 (a maser line is in emission); in %d of the %d rows shown it is 0: no emission of the model fits within the allowed shifts (shift undetermined, \"-\").\n", zero, shown)
 	}
 	fmt.Fprintf(w, "A good chi-square does not exclude other models outside the run's grid, nor mechanisms the model lacks (maserpol diagnose).\n")
-}
-
-func rankingCSV(obs *interpret.Observed, rk []interpret.Ranked) []byte {
-	var b csvBuffer
-	b.comment("maserpol compare: %s; shift in km/s added to model velocities; scale in %s; chi2_X/N per Stokes; red_chi2 = total chi2/(N*n_stokes - 3); scale >= 0; shift_at_bound: the best shift is at --max-shift; valid: R/(g Omega) <= 0.1", obs.File, scaleUnit(obs))
-	cols := []string{"rank", "model", "parameters", "checkpoint", "saturation", "r_over_gomega", "valid", "shift_kms", "shift_at_bound", "scale"}
-	for k, s := range interpret.StokesNames {
-		if obs.Use[k] {
-			cols = append(cols, "chi2_"+s+"_per_N")
-		}
-	}
-	b.row(append(cols, "red_chi2")...)
-	for i, r := range rk {
-		cells := []string{strconv.Itoa(i + 1), r.Model.Name, paramText(r.Model), strconv.Itoa(r.Best.Checkpoint), fcsv(r.Best.Saturation), fcsv(rgAt(r)), strconv.FormatBool(rgAt(r) <= interpret.ValidLimit), fcsv(r.Best.Shift / 1e3), strconv.FormatBool(r.Best.ShiftAtBound), fcsv(r.Best.Scale)}
-		for k := range interpret.StokesNames {
-			if obs.Use[k] {
-				cells = append(cells, fcsv(r.Best.RedChi2Of(k)))
-			}
-		}
-		b.row(append(cells, fcsv(r.Best.RedChi2))...)
-	}
-	return b.Bytes()
 }

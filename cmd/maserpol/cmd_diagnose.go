@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bytes"
 	"context"
 	"errors"
 	"fmt"
@@ -33,20 +32,21 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	mlErr := fs.String("ml-err", "", "1-sigma error of --ml (fraction or %) [required]")
 	pv := fs.String("pv", "", "measured circular polarization P_V = (V_max - V_min)/I_peak (fraction or %); compared only with --field")
 	pvErr := fs.String("pv-err", "", "1-sigma error of --pv")
-	evpa := fs.String("evpa-rel", "", "EVPA minus the position angle of the projected field, e.g. \"85 deg\"; selects the parallel or perpendicular branch (unset: orientation not tested)")
-	fwhm := fs.String("fwhm", "", "FWHM of the intrinsic (thermal+turbulent) velocity distribution, e.g. \"1.7 km/s\" (overrides --doppler)")
-	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution (FWHM = 1.665 x this)")
-	tb := fs.String("tb", "", "brightness temperature of the feature, e.g. \"3e9 K\" or \"1e9:5e9 K\"")
-	domega := fs.String("domega", "", "beaming solid angle dOmega, e.g. \"1e-2 sr\" or \"1e-3:1e-2 sr\"")
+	evpa := fs.String("evpa-rel", "", "EVPA minus the position angle of the projected field in deg (or with a unit), e.g. 85; selects the parallel or perpendicular branch (unset: orientation not tested)")
+	fwhm := fs.String("fwhm", "", "FWHM of the intrinsic (thermal+turbulent) velocity distribution in km/s (or with a unit), e.g. 1.7 (overrides --doppler)")
+	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution in km/s or with a unit (FWHM = 1.665 x this)")
+	tb := fs.String("tb", "", "brightness temperature of the feature in K (or with a unit), e.g. 3e9 or \"1e9:5e9 K\"")
+	domega := fs.String("domega", "", "beaming solid angle dOmega in sr (or with a unit), e.g. 1e-2 or \"1e-3:1e-2 sr\"")
 	sat := fs.String("saturation", "", "saturation R/Gamma (dimensionless), one value or LO:HI; instead of --tb/--domega")
-	field := fs.String("field", "", "field strength of the field cases, e.g. \"5 G\" (default: R/(g Omega) = 0.01 at the top of the saturation range)")
-	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels (upper and lower)")
+	field := fs.String("field", "", "field strength of the field cases in G (or with a unit), e.g. 5 or \"500 mG\" (default: R/(g Omega) = 0.01 at the top of the saturation range)")
+	gamma := fs.String("gamma", defaultGamma(), "decay rate Gamma of the maser levels (upper and lower), in s^-1 or with a unit; the default is that of run")
 	nsigma := fs.Float64("nsigma", 2, "a model is consistent when within this many errors")
 	quick := fs.Bool("quick", false, "small grid (15 models) for previews and tests")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
-	csvPath := fs.String("csv", "", "write the verdict table as CSV to this file")
-	details := fs.String("details", "", "write one CSV row per model to this file")
+	tablePath := fs.String("table", "", "write the verdict table to this file: .ecsv (with units) or .csv (plain)")
+	details := fs.String("details", "", "write one row per model to this file: .ecsv (with units) or .csv (plain)")
 	plotPath := fs.String("plot", "", "write the figure of m_l against saturation (format from the extension: png, svg, pdf, eps)")
+	titles := fs.Bool("titles", false, "put a title above the figure (journal figures have none)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -54,6 +54,13 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	if len(pos) != 1 {
 		fs.Usage()
 		return exitInput
+	}
+	for _, t := range []struct{ flag, path string }{{"table", *tablePath}, {"details", *details}} {
+		if t.path != "" {
+			if _, err := checkTablePath(t.flag, t.path); err != nil {
+				return report(stderr, err)
+			}
+		}
 	}
 	sp, err := species.Resolve(pos[0])
 	if err != nil {
@@ -98,7 +105,7 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	}
 	m.NSigma = *nsigma
 	if *evpa != "" {
-		psi, err := units.Parse(*evpa, units.Angle)
+		psi, err := units.ParsePlain(*evpa, units.Angle, "deg")
 		if err != nil {
 			return report(stderr, usagef("--evpa-rel: %v", err))
 		}
@@ -109,25 +116,25 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	}
 	base := transfer.Params{Species: sp}
 	if *fwhm != "" {
-		w, err := units.Parse(*fwhm, units.Velocity)
+		w, err := units.ParsePlain(*fwhm, units.Velocity, "km/s")
 		if err != nil || !(w > 0) {
 			return report(stderr, usagef("--fwhm %q: need a velocity > 0 (allowed units: %s)", *fwhm, units.Allowed(units.Velocity)))
 		}
 		base.Doppler = w / (2 * math.Sqrt(math.Ln2))
 	} else {
-		w, err := units.Parse(*doppler, units.Velocity)
+		w, err := units.ParsePlain(*doppler, units.Velocity, "km/s")
 		if err != nil || !(w > 0) {
 			return report(stderr, usagef("--doppler %q: need a velocity > 0 (allowed units: %s)", *doppler, units.Allowed(units.Velocity)))
 		}
 		base.Doppler = w
 	}
-	g, err := units.Parse(*gamma, units.Rate)
+	g, err := units.ParsePlain(*gamma, units.Rate, "s^-1")
 	if err != nil || !(g > 0) {
 		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
 	}
 	base.GammaUpper, base.GammaLower = g, g
 	if *field != "" {
-		b, err := units.Parse(*field, units.Field)
+		b, err := units.ParsePlain(*field, units.Field, "G")
 		if err != nil || b == 0 {
 			return report(stderr, usagef("--field %q: need a non-zero field (allowed units: %s)", *field, units.Allowed(units.Field)))
 		}
@@ -138,16 +145,16 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	case *sat != "" && (*tb != "" || *domega != ""):
 		return report(stderr, usagef("give either --saturation or --tb with --domega, not both"))
 	case *sat != "":
-		if m.SatLo, m.SatHi, e = parseRange(*sat, units.Dimensionless, "saturation"); e != nil {
+		if m.SatLo, m.SatHi, e = parseRange(*sat, units.Dimensionless, "", "saturation"); e != nil {
 			return report(stderr, e)
 		}
 		satFrom = "given"
 	case *tb != "" && *domega != "":
-		t1, t2, err := parseRange(*tb, units.Temperature, "tb")
+		t1, t2, err := parseRange(*tb, units.Temperature, "K", "tb")
 		if err != nil {
 			return report(stderr, err)
 		}
-		o1, o2, err := parseRange(*domega, units.SolidAngle, "domega")
+		o1, o2, err := parseRange(*domega, units.SolidAngle, "sr", "domega")
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -182,20 +189,24 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	for _, w := range d.Warnings {
 		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
 	}
-	if *csvPath != "" {
-		if err := writeAtomically(*csvPath, diagnosisCSV(d, sp.Name)); err != nil {
+	if *tablePath != "" {
+		if err := writeDiagnosis(*tablePath, d, sp.Name); err != nil {
 			return report(stderr, err)
 		}
-		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *tablePath)
 	}
 	if *details != "" {
-		if err := writeAtomically(*details, diagnosisDetailsCSV(d)); err != nil {
+		if err := writeDiagnosisDetails(*details, d, sp.Name); err != nil {
 			return report(stderr, err)
 		}
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *details)
 	}
 	if *plotPath != "" {
-		paths, err := saveFigure(interpret.DiagnosisFigure(d, sp.Name+": m_l against saturation"), *plotPath)
+		title := ""
+		if *titles {
+			title = figures.Escape(sp.Name) + ": m_l against saturation"
+		}
+		paths, err := saveFigure(interpret.DiagnosisFigure(d, title), *plotPath)
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -216,14 +227,6 @@ func ivText(iv interpret.Interval, f func(float64) string) string {
 		return f(iv.Lo)
 	}
 	return f(iv.Lo) + " .. " + f(iv.Hi)
-}
-
-// fcsv writes a float for CSV, infinities (empty ranges) as nan.
-func fcsv(x float64) string {
-	if math.IsInf(x, 0) {
-		return "nan"
-	}
-	return strconv.FormatFloat(x, 'g', -1, 64)
 }
 
 func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
@@ -268,43 +271,10 @@ func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
 	}
 }
 
-func diagnosisCSV(d *interpret.Diagnosis, name string) []byte {
-	var b csvBuffer
-	m := d.Measurement
-	b.comment("maserpol diagnose: %s; m_l = %g +/- %g (%s branch), R/Gamma %g..%g, n_sigma %g; field cases B = %g G, weak-field cases B = %g G", name, m.Ml, m.MlErr, m.Branch, m.SatLo, m.SatHi, m.NSigma, d.Field, d.WeakField)
-	b.comment("fractions dimensionless; pl = m_l projected on the measured branch (negative: orthogonal); valid: R/(g Omega) <= 0.1 (populations-only model)")
-	b.comment("valid: R/(g Omega) <= 0.1 over the whole range; valid_up_to: the saturation R/Gamma up to which it holds when not valid (nan: nowhere in the range); consistent_ml, n_consistent_ml, pv_constrained: the answer from m_l alone and whether P_V changed it (with --pv)")
-	b.row("mechanism", "parameter", "consistent", "n_consistent", "n_models", "pl_min", "pl_max", "r_over_gomega_min", "r_over_gomega_max", "valid", "valid_up_to", "reproduces", "consistent_ml", "n_consistent_ml", "pv_constrained", "note")
-	for _, v := range d.Verdicts {
-		ml, nml := v.Consistent, v.NConsistent
-		if m.HasPV {
-			ml, nml = v.ConsistentMl, v.NConsistentMl
-		}
-		b.row(v.Mechanism.String(), v.Parameter, v.Consistent, strconv.Itoa(v.NConsistent), strconv.Itoa(v.NModels),
-			fcsv(v.Reach.Lo), fcsv(v.Reach.Hi), fcsv(v.RGOmega.Lo), fcsv(v.RGOmega.Hi), strconv.FormatBool(v.Valid), fcsv(v.ValidUpTo), strconv.FormatBool(v.Reproduces),
-			ml, strconv.Itoa(nml), strconv.FormatBool(v.PVConstrained), v.Note)
-	}
-	return b.Bytes()
-}
-
-func diagnosisDetailsCSV(d *interpret.Diagnosis) []byte {
-	var b csvBuffer
-	b.comment("maserpol diagnose: one row per model; theta in deg, B in G; pl and pv over the measured saturation range; pl = m_l projected on the measured branch")
-	b.row("mechanism", "theta_deg", "B_G", "alignment", "seed_ml", "pl_min", "pl_max", "pv_min", "pv_max", "r_over_gomega_max", "covered", "consistent", "error")
-	for _, r := range d.Cases {
-		msg := ""
-		if r.Err != nil {
-			msg = r.Err.Error()
-		}
-		b.row(r.Case.Mechanism.String(), fcsv(r.Case.Theta*180/math.Pi), fcsv(r.Case.Params.Field), fcsv(r.Case.Alignment), fcsv(r.Case.SeedFraction),
-			fcsv(r.Reach.Lo), fcsv(r.Reach.Hi), fcsv(r.PV.Lo), fcsv(r.PV.Hi), fcsv(r.RGOmega.Hi), strconv.FormatBool(r.Covered), strconv.FormatBool(r.Consistent), msg)
-	}
-	return b.Bytes()
-}
-
 // parseRange reads "x unit" or "lo:hi unit" (the unit after the last part
-// applies to both) and returns lo, hi in internal units.
-func parseRange(s string, k units.Kind, flagName string) (lo, hi float64, err error) {
+// applies to both; without one, numbers are in plainUnit as in a config)
+// and returns lo, hi in internal units.
+func parseRange(s string, k units.Kind, plainUnit, flagName string) (lo, hi float64, err error) {
 	parts := strings.Split(s, ":")
 	if len(parts) > 2 {
 		return 0, 0, usagef("--%s %q: write one value or lo:hi with a unit (allowed units: %s)", flagName, s, units.Allowed(k))
@@ -317,10 +287,10 @@ func parseRange(s string, k units.Kind, flagName string) (lo, hi float64, err er
 	vals := make([]float64, len(parts))
 	for i, p := range parts {
 		p = strings.TrimSpace(p)
-		if i < len(parts)-1 && numberPrefix(p) == len(p) {
+		if i < len(parts)-1 && numberPrefix(p) == len(p) && unit != "" {
 			p += " " + unit
 		}
-		v, err := units.Parse(p, k)
+		v, err := units.ParsePlain(p, k, plainUnit)
 		if err != nil {
 			return 0, 0, usagef("--%s: %v", flagName, err)
 		}
@@ -332,6 +302,12 @@ func parseRange(s string, k units.Kind, flagName string) (lo, hi float64, err er
 	}
 	return lo, hi, nil
 }
+
+// defaultGamma is the decay rate of every command that does not read it
+// from a config: transfer.DefaultGamma, the default of run, so that the
+// saturation scale R/Gamma means the same in run, diagnose and
+// zeeman-factor.
+func defaultGamma() string { return strconv.FormatFloat(transfer.DefaultGamma, 'g', -1, 64) + " s^-1" }
 
 // numberPrefix returns the length of the leading number of s.
 func numberPrefix(s string) int {
@@ -360,24 +336,4 @@ func saveFigure(s *figures.Stack, path string) ([]string, error) {
 		return nil, usagef("--plot %q: unknown figure format %q (allowed: %s)", path, ext, strings.Join(figures.Formats, ", "))
 	}
 	return s.Save(strings.TrimSuffix(path, "."+ext), []string{ext})
-}
-
-// csvBuffer is a CSV table under construction with '#' comment lines.
-type csvBuffer struct{ bytes.Buffer }
-
-func (b *csvBuffer) comment(format string, a ...any) {
-	fmt.Fprintf(b, "# "+format+"\n", a...)
-}
-
-func (b *csvBuffer) row(cells ...string) {
-	for i, c := range cells {
-		if i > 0 {
-			b.WriteByte(',')
-		}
-		if strings.ContainsAny(c, ",\"\n") {
-			c = `"` + strings.ReplaceAll(c, `"`, `""`) + `"`
-		}
-		b.WriteString(c)
-	}
-	b.WriteByte('\n')
 }

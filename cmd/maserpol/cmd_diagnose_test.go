@@ -21,9 +21,9 @@ func runCmd(f func(context.Context, []string, io.Writer, io.Writer) int, args ..
 
 func TestDiagnoseCommand(t *testing.T) {
 	dir := t.TempDir()
-	csv := filepath.Join(dir, "v.csv")
+	csv := filepath.Join(dir, "v.ecsv")
 	code, out, errs := runCmd(cmdDiagnose, "sio-v1-j1-0", "--ml", "0.40", "--ml-err", "0.02", "--evpa-rel", "88 deg",
-		"--saturation", "100:1000", "--quick", "--workers", "2", "--csv", csv, "--plot", filepath.Join(dir, "d.png"))
+		"--saturation", "100:1000", "--quick", "--workers", "2", "--table", csv, "--plot", filepath.Join(dir, "d.png"))
 	if code != 0 {
 		t.Fatalf("exit %d\n%s\n%s", code, out, errs)
 	}

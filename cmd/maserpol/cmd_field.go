@@ -266,7 +266,7 @@ func fieldDefaults(tb, domega, sat, theta, ml, mlErr, branch, window string) (in
 		if tb != "" {
 			return d, usagef("give either --saturation or --tb with --domega, not both")
 		}
-		if d.SatLo, d.SatHi, err = parseRange(sat, units.Dimensionless, "saturation"); err != nil {
+		if d.SatLo, d.SatHi, err = parseRange(sat, units.Dimensionless, "", "saturation"); err != nil {
 			return d, err
 		}
 		if !(d.SatLo > 0) {
@@ -274,7 +274,7 @@ func fieldDefaults(tb, domega, sat, theta, ml, mlErr, branch, window string) (in
 		}
 	}
 	if domega != "" {
-		if d.DOmegaLo, d.DOmegaHi, err = parseRange(domega, units.SolidAngle, "domega"); err != nil {
+		if d.DOmegaLo, d.DOmegaHi, err = parseRange(domega, units.SolidAngle, "sr", "domega"); err != nil {
 			return d, err
 		}
 		if !(d.DOmegaLo > 0) {
@@ -285,7 +285,7 @@ func fieldDefaults(tb, domega, sat, theta, ml, mlErr, branch, window string) (in
 		if domega == "" {
 			return d, usagef("--tb needs --domega (the beaming solid angle)")
 		}
-		if d.TbLo, d.TbHi, err = parseRange(tb, units.Temperature, "tb"); err != nil {
+		if d.TbLo, d.TbHi, err = parseRange(tb, units.Temperature, "K", "tb"); err != nil {
 			return d, err
 		}
 		if !(d.TbLo > 0) {
@@ -338,7 +338,7 @@ func fieldDefaults(tb, domega, sat, theta, ml, mlErr, branch, window string) (in
 		return d, usagef("--branch %q: allowed auto, parallel, perpendicular", branch)
 	}
 	if window != "" {
-		lo, hi, err := parseRange(window, units.Velocity, "window")
+		lo, hi, err := parseRange(window, units.Velocity, "km/s", "window")
 		if err != nil {
 			return d, err
 		}

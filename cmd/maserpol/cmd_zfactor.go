@@ -19,7 +19,7 @@ import (
 )
 
 const (
-	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--csv FILE]"
+	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--table FILE]"
 	zfactorSummary = "compute the factor that turns Stokes V into B cos(theta), against the linear-Zeeman estimate"
 )
 
@@ -27,14 +27,14 @@ const (
 func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("zeeman-factor", zfactorArgs, zfactorSummary, stderr)
 	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), an index as listed, or F labels \"2-1\"")
-	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit")
-	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution")
-	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution (overrides --doppler)")
+	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit (none: deg)")
+	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution, in km/s or with a unit")
+	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution, in km/s or with a unit (overrides --doppler)")
 	satMax := fs.Float64("saturation", 100, "highest saturation R/Gamma (dimensionless); checkpoints from 1e-3 up")
-	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels")
-	b0 := fs.String("b0", "", "small model field, e.g. \"2 G\" (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
+	gamma := fs.String("gamma", defaultGamma(), "decay rate Gamma of the maser levels, in s^-1 or with a unit; the default is that of run")
+	b0 := fs.String("b0", "", "small model field in G (or with a unit), e.g. 2 (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
-	csvPath := fs.String("csv", "", "write the table as CSV to this file")
+	tablePath := fs.String("table", "", "write the table to this file: .ecsv (with units) or .csv (plain)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -42,6 +42,11 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	if len(pos) != 1 {
 		fs.Usage()
 		return exitInput
+	}
+	if *tablePath != "" {
+		if _, err := checkTablePath("table", *tablePath); err != nil {
+			return report(stderr, err)
+		}
 	}
 	sp, err := species.Resolve(pos[0])
 	if err != nil {
@@ -55,7 +60,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	if *fwhm != "" {
 		vs, vname = *fwhm, "fwhm"
 	}
-	w, err := units.Parse(vs, units.Velocity)
+	w, err := units.ParsePlain(vs, units.Velocity, "km/s")
 	if err != nil || !(w > 0) {
 		return report(stderr, usagef("--%s %q: need a velocity > 0 (allowed units: %s)", vname, vs, units.Allowed(units.Velocity)))
 	}
@@ -63,14 +68,14 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 		w /= 2 * math.Sqrt(math.Ln2)
 	}
 	base.Doppler = w
-	g, err := units.Parse(*gamma, units.Rate)
+	g, err := units.ParsePlain(*gamma, units.Rate, "s^-1")
 	if err != nil || !(g > 0) {
 		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
 	}
 	base.GammaUpper, base.GammaLower = g, g
 	spec := interpret.FactorSpec{Base: base, Component: interpret.Blend}
 	if *b0 != "" {
-		if spec.B0, err = units.Parse(*b0, units.Field); err != nil || !(spec.B0 > 0) {
+		if spec.B0, err = units.ParsePlain(*b0, units.Field, "G"); err != nil || !(spec.B0 > 0) {
 			return report(stderr, usagef("--b0 %q: need a field > 0 (allowed units: %s)", *b0, units.Allowed(units.Field)))
 		}
 	}
@@ -96,11 +101,11 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	for _, w := range f.Warnings {
 		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
 	}
-	if *csvPath != "" {
-		if err := writeAtomically(*csvPath, factorsCSV(f)); err != nil {
+	if *tablePath != "" {
+		if err := writeFactors(*tablePath, f); err != nil {
 			return report(stderr, err)
 		}
-		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *tablePath)
 	}
 	return exitOK
 }
@@ -126,7 +131,7 @@ func parseAngleList(s string) ([]float64, error) {
 		if numberPrefix(p) == len(p) {
 			p += " " + unit
 		}
-		x, err := units.Parse(p, units.Angle)
+		x, err := units.ParsePlain(p, units.Angle, "deg")
 		if err != nil {
 			return nil, usagef("--theta: %v", err)
 		}
@@ -202,17 +207,4 @@ func gaussText(b float64) string {
 		return g3(b*1e3) + " mG"
 	}
 	return g3(b) + " G"
-}
-
-func factorsCSV(f *interpret.Factors) []byte {
-	var b csvBuffer
-	b.comment("maserpol zeeman-factor: %s, %s; B0 = %g G; fit window %g..%g km/s", f.Species.Name, compName(f), f.B0, f.Window[0]/1e3, f.Window[1]/1e3)
-	b.comment("factor = A/(B0 cos theta) from V = A dI/dv + C I; B cos(theta) = A_observed/factor; linear = single-component linear-Zeeman value")
-	b.comment("r_over_gomega at B0, scaling as 1/B: a row holds for b_valid_min_G <= |B| <= %g G; good_fit: residual <= %g; valid: good_fit and r_over_gomega <= 0.1 at B0", f.BMax, interpret.MaxResidual)
-	b.row("theta_deg", "saturation", "r_over_gomega", "valid", "good_fit", "b_valid_min_G", "A_kms", "C", "factor_ms_per_G", "linear_ms_per_G", "ratio", "pv_per_G", "linearity", "residual")
-	for _, r := range f.Rows {
-		b.row(fcsv(r.Theta*180/math.Pi), fcsv(r.Saturation), fcsv(r.RoverGOmega), strconv.FormatBool(r.Valid), strconv.FormatBool(r.GoodFit), fcsv(r.BValidMin),
-			fcsv(r.A/1e3), fcsv(r.C), fcsv(r.Factor), fcsv(r.Linear), fcsv(r.Ratio), fcsv(r.PVPerG), fcsv(r.Linearity), fcsv(r.Residual))
-	}
-	return b.Bytes()
 }

@@ -27,6 +27,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("demo", stderr)
 	out := fs.String("out", "maserpol-demo", "`directory` for the demonstration runs and their configs")
 	workers := fs.Int("workers", 0, "number of models computed at once; 0 = one per CPU core (the default)")
+	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -56,7 +57,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		dir := filepath.Join(*out, strings.TrimSuffix(name, ".toml"))
 		fmt.Fprintf(stdout, "\nconfig: %s (%d models, species %s)\n", cfg, len(st.Models), st.Models[0].Species)
 		// Resume makes a repeated demo finish instantly from its own results.
-		code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: true}, stdout, stderr)
+		code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: true, Titles: *titles}, stdout, stderr)
 		if code != exitOK {
 			if _, err := runs.ReadManifest(dir); err == nil && ctx.Err() == nil {
 				fmt.Fprintf(stderr, "maserpol: (remove %s to run the demo again)\n", dir)

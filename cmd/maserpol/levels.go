@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
@@ -18,14 +17,19 @@ import (
 	"maserpol/config/units"
 	"maserpol/levels"
 	"maserpol/levels/species"
+	"maserpol/runs"
+	"maserpol/runs/ecsv"
 	"maserpol/runs/figures"
 )
 
 func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("levels", stderr)
 	field := fs.String("field", "", "field `grid`: \"START:STOP:N UNIT\" (N evenly spaced values), a list \"a,b,c UNIT\" or one value \"25 mG\" (default \"0:100:21 mG\" for paramagnetic species, \"0:100:21 G\" for closed-shell ones)")
-	format := fs.String("format", "table", "output `format`: table or csv")
+	format := fs.String("format", "table", "output `format`: table, ecsv (long form with units, for astropy) or csv (the same, plain)")
 	plotFile := fs.String("plot", "", "also draw the Zeeman diagram into `FILE` (.png, .svg, .pdf or .eps; no extension: png and svg)")
+	titles := fs.Bool("titles", false, "put a title above the Zeeman diagram (journal figures have none)")
+	compsOnly := fs.Bool("components", false, "print only the zero-field hyperfine components with their weak-field splitting factors")
+	minStrength := fs.Float64("min-strength", 1e-6, "leave out components and lines weaker than this relative strength (0 keeps all; strengths sum to 1)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -34,17 +38,26 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fs.Usage()
 		return exitInput
 	}
-	if *format != "table" && *format != "csv" {
-		return report(stderr, usagef("--format %q: allowed: table, csv", *format))
+	if !(*minStrength >= 0 && *minStrength < 1) {
+		return report(stderr, usagef("--min-strength %g: allowed 0 <= x < 1 (relative strength; strengths sum to 1)", *minStrength))
+	}
+	if *compsOnly && *plotFile != "" {
+		return report(stderr, usagef("--components lists the zero-field components only; draw the Zeeman diagram without it"))
+	}
+	if *format != "table" && *format != "csv" && *format != "ecsv" {
+		return report(stderr, usagef("--format %q: allowed: table, ecsv, csv", *format))
 	}
 	sps, names, err := resolveSpecies(pos[0])
 	if err != nil {
 		return report(stderr, err)
 	}
-	var cw *csv.Writer
-	if *format == "csv" {
-		cw = csv.NewWriter(stdout)
-		cw.Write(levelCSVHeader)
+	var cw *ecsv.Writer
+	switch *format {
+	case "csv":
+		cw = ecsv.NewPlainWriter(stdout, levelColumns)
+	case "ecsv":
+		cw = ecsv.NewWriter(stdout, levelColumns, []ecsv.Meta{{Key: "program", Value: "maserpol " + runs.Version}, {Key: "command", Value: "levels"},
+			{Key: "kinds", Value: "component: zero-field hyperfine components; state: eigenstates at each field; line: allowed transitions at each field; cells that do not apply are empty"}})
 	}
 	for k, sp := range sps {
 		grid := *field
@@ -58,6 +71,9 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		if err != nil {
 			return report(stderr, err)
 		}
+		if *compsOnly {
+			fields = nil
+		}
 		if sp.Unverified {
 			fmt.Fprintf(stderr, "maserpol: warning: species %s has constants not checked against a source (marked unverified); treat the numbers as illustrative\n", names[k])
 		}
@@ -65,8 +81,11 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		if err != nil {
 			return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
 		}
+		lt.dropWeak(*minStrength)
 		if cw != nil {
-			lt.writeCSV(cw)
+			if err := lt.writeCSV(cw); err != nil {
+				return report(stderr, err)
+			}
 		} else {
 			lt.writeTable(stdout, names[k])
 		}
@@ -76,7 +95,7 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 				ext := filepath.Ext(base)
 				base = strings.TrimSuffix(base, ext) + "_" + safeName(names[k]) + ext
 			}
-			paths, err := lt.plot(base)
+			paths, err := lt.plot(base, *titles)
 			if err != nil {
 				return report(stderr, err)
 			}
@@ -86,8 +105,7 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		}
 	}
 	if cw != nil {
-		cw.Flush()
-		if err := cw.Error(); err != nil {
+		if err := cw.Flush(); err != nil {
 			return report(stderr, err)
 		}
 	}
@@ -232,6 +250,9 @@ type levelTables struct {
 	unit   string    // field unit for display, as the user wrote it
 	states [][2][]stateRow
 	lines  [][]lineRow
+	// minStrength is the cutoff of dropWeak, and what it left out.
+	minStrength                float64
+	droppedComps, droppedLines int
 }
 
 type stateRow struct {
@@ -349,6 +370,32 @@ func linearUpTo(g float64) string {
 	return strconv.FormatFloat(g, 'g', 4, 64)
 }
 
+// dropWeak leaves out components and lines weaker than min (forbidden
+// ones, whose strength is round-off, and negligible ones) and counts them.
+func (lt *levelTables) dropWeak(min float64) {
+	lt.minStrength = min
+	var cs []levels.Component
+	for _, c := range lt.comps {
+		if c.Strength >= min && c.Strength > 0 {
+			cs = append(cs, c)
+		} else {
+			lt.droppedComps++
+		}
+	}
+	lt.comps = cs
+	for i, ls := range lt.lines {
+		var keep []lineRow
+		for _, l := range ls {
+			if l.streng >= min && l.streng > 0 {
+				keep = append(keep, l)
+			} else {
+				lt.droppedLines++
+			}
+		}
+		lt.lines[i] = keep
+	}
+}
+
 func (lt *levelTables) writeTable(w io.Writer, name string) {
 	sp := lt.sp
 	fmt.Fprintf(w, "Species %s (%s): rest frequency %s, A = %g s^-1, %s magneton\n",
@@ -358,11 +405,14 @@ func (lt *levelTables) writeTable(w io.Writer, name string) {
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintf(tw, "Fu\tF1u\tFl\tF1l\toffset (kHz)\tstrength\tsplit (Hz/G)\tsplit (km/s/G)\tlinear up to (G)\t\n")
 	for _, c := range lt.comps {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.4f\t%.5f\t%.5g\t%.5g\t%s\t\n", half(c.Fu), half(c.F1u), half(c.Fl), half(c.F1l),
+		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.4f\t%.4g\t%.5g\t%.5g\t%s\t\n", half(c.Fu), half(c.F1u), half(c.Fl), half(c.F1l),
 			units.In(c.Offset, units.Frequency, "kHz"), c.Strength, c.SplitHzPerG, c.SplitKmsPerG, linearUpTo(c.LinearUpTo))
 	}
 	tw.Flush()
 	fmt.Fprintf(w, "(linear up to: field below which the splitting stays linear in B within 1 %%; inf = no hyperfine decoupling found up to 1e6 G)\n")
+	if lt.droppedComps+lt.droppedLines > 0 {
+		fmt.Fprintf(w, "(left out: %d components and %d lines of relative strength below %g; --min-strength 0 shows them)\n", lt.droppedComps, lt.droppedLines, lt.minStrength)
+	}
 	for i, b := range lt.fields {
 		fmt.Fprintf(w, "\nField B = %s\n", fieldText(b, lt.unit))
 		for k, lev := range []string{"upper", "lower"} {
@@ -385,20 +435,45 @@ func (lt *levelTables) writeTable(w io.Writer, name string) {
 	fmt.Fprintln(w)
 }
 
-// levelCSVHeader is the long-form CSV of "levels --format csv": one row per
-// component (kind = component), state (kind = state) or transition line
-// (kind = line); cells that do not apply are empty.
-var levelCSVHeader = []string{"species", "kind", "field_mG", "level", "F", "F1", "M", "energy_khz", "composition",
-	"Fu", "F1u", "Mu", "Fl", "F1l", "Ml", "q", "offset_khz", "strength", "split_hz_per_G", "split_kms_per_G", "linear_up_to_G"}
+// levelColumns is the long-form table of "levels --format ecsv|csv": one
+// row per component (kind = component), state (kind = state) or transition
+// line (kind = line); cells that do not apply are empty. Angular momenta
+// are written as text ("3/2").
+var levelColumns = []ecsv.Column{
+	{Name: "species", Datatype: ecsv.String, Description: "preset name or species file"},
+	{Name: "kind", Datatype: ecsv.String, Description: "component, state or line"},
+	{Name: "field_mG", Unit: "mG", Datatype: ecsv.Float64, Description: "field strength"},
+	{Name: "level", Datatype: ecsv.String, Description: "upper or lower (states)"},
+	{Name: "F", Datatype: ecsv.String, Description: "zero-field F label carried to this field (states)"},
+	{Name: "F1", Datatype: ecsv.String, Description: "F1, J coupled to the first spin (states)"},
+	{Name: "M", Datatype: ecsv.String, Description: "total projection M (states)"},
+	{Name: "energy_khz", Unit: "kHz", Datatype: ecsv.Float64, Description: "E/h relative to the unsplit rotational level (states)"},
+	{Name: "composition", Datatype: ecsv.String, Description: "largest uncoupled-basis components (states)"},
+	{Name: "Fu", Datatype: ecsv.String, Description: "F of the upper state"},
+	{Name: "F1u", Datatype: ecsv.String, Description: "F1 of the upper state"},
+	{Name: "Mu", Datatype: ecsv.String, Description: "M of the upper state (lines)"},
+	{Name: "Fl", Datatype: ecsv.String, Description: "F of the lower state"},
+	{Name: "F1l", Datatype: ecsv.String, Description: "F1 of the lower state"},
+	{Name: "Ml", Datatype: ecsv.String, Description: "M of the lower state (lines)"},
+	{Name: "q", Datatype: ecsv.Int64, Description: "m_u - m_l (lines)"},
+	{Name: "offset_khz", Unit: "kHz", Datatype: ecsv.Float64, Description: "frequency offset from the species rest frequency"},
+	{Name: "strength", Datatype: ecsv.Float64, Description: "relative strength: lines sum to 1 per upper state, components sum to 1"},
+	{Name: "split_hz_per_G", Unit: "Hz / G", Datatype: ecsv.Float64, Description: "weak-field sigma+ minus pi centroid shift of a component"},
+	{Name: "split_kms_per_G", Unit: "km / (G s)", Datatype: ecsv.Float64, Description: "the same in velocity"},
+	{Name: "linear_up_to_G", Unit: "G", Datatype: ecsv.Float64, Description: "field below which the component's shifts stay linear in B within 1 %"},
+}
 
-func (lt *levelTables) writeCSV(cw *csv.Writer) {
+func (lt *levelTables) writeCSV(cw *ecsv.Writer) error {
 	f := func(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
+	var err error
 	row := func(kv map[string]string) {
-		r := make([]string, len(levelCSVHeader))
-		for i, h := range levelCSVHeader {
-			r[i] = kv[h]
+		r := make([]string, len(levelColumns))
+		for i, c := range levelColumns {
+			r[i] = kv[c.Name]
 		}
-		cw.Write(r)
+		if err == nil {
+			err = cw.WriteCells(r)
+		}
 	}
 	name := lt.sp.Name
 	for _, c := range lt.comps {
@@ -423,11 +498,15 @@ func (lt *levelTables) writeCSV(cw *csv.Writer) {
 				"Fl": half(l.l.F), "F1l": half(l.l.F1), "Ml": half(l.l.M), "q": strconv.Itoa(l.q), "offset_khz": f(l.offsetKHz), "strength": f(l.streng)})
 		}
 	}
+	if err == nil {
+		err = cw.Flush()
+	}
+	return err
 }
 
 // plot draws the Zeeman diagram: one curve per state (followed by its
 // label across fields), coloured by F.
-func (lt *levelTables) plot(file string) ([]string, error) {
+func (lt *levelTables) plot(file string, titles bool) ([]string, error) {
 	ext := strings.TrimPrefix(filepath.Ext(file), ".")
 	formats := []string{"png", "svg"}
 	base := file
@@ -527,18 +606,54 @@ func (lt *levelTables) plot(file string) ([]string, error) {
 		// Legend entries in order of F.
 		sort.SliceStable(panels[k], func(a, b int) bool { return panels[k][a].Style < panels[k][b].Style })
 	}
-	title := lt.sp.Name + ": Zeeman diagram"
+	title := figures.Escape(lt.sp.Name) + ": Zeeman diagram"
 	fig := figures.Zeeman(title, panels[0], panels[1])
 	fig.XLabel = "field strength B (" + lt.unit + ")"
+	// Energies (or shifts) below 1 kHz, as at mG fields, read in Hz; both
+	// panels share the unit.
+	unit := "kHz"
+	if m := math.Max(maxAbs(panels[0]), maxAbs(panels[1])); m > 0 && m < 1 {
+		unit = "Hz"
+	}
 	for k, rel := range relative {
+		if unit == "Hz" {
+			unit = "Hz"
+			for i := range fig.Panels[k].Curves {
+				c := &fig.Panels[k].Curves[i]
+				y := make([]float64, len(c.Y))
+				for j, v := range c.Y {
+					y[j] = 1e3 * v
+				}
+				c.Y = y
+			}
+		}
+		name := []string{"upper", "lower"}[k]
 		if rel {
-			fig.Panels[k].YLabel = []string{"upper", "lower"}[k] + " ΔE/h (kHz)"
+			fig.Panels[k].YLabel = name + " ΔE/h (" + unit + ")"
+		} else {
+			fig.Panels[k].YLabel = name + " E/h (" + unit + ")"
 		}
 	}
 	if relative[0] || relative[1] {
 		fig.Title += "\nshifts from the zero-field hyperfine levels"
 	}
+	if !titles {
+		fig.Title = ""
+	}
 	return fig.Save(base, formats)
+}
+
+// maxAbs is the largest finite |y| of the curves.
+func maxAbs(cs []figures.Curve) float64 {
+	m := 0.0
+	for _, c := range cs {
+		for _, y := range c.Y {
+			if !math.IsNaN(y) && !math.IsInf(y, 0) {
+				m = math.Max(m, math.Abs(y))
+			}
+		}
+	}
+	return m
 }
 
 func nanSlice(n int) []float64 {

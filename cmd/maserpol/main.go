@@ -42,10 +42,10 @@ type command struct {
 
 func commands() []command {
 	return []command{
-		{"run", "CONFIG [--workers N] [--resume] [--shard K/N] [--out DIR] [--no-plots]", "run the parameter study of a config file", cmdRun},
-		{"levels", "SPECIES_OR_CONFIG [--field \"0:100:21 mG\"] [--format table|csv] [--plot FILE]", "print Zeeman levels, transitions and hyperfine components", cmdLevels},
-		{"plot", "RUNDIR [--format png,svg]", "redraw the figures of a run directory from its tables", cmdPlot},
-		{"merge", "DST SRC... [--format png,svg] [--no-plots]", "join shard run directories into one", cmdMerge},
+		{"run", "CONFIG [--workers N] [--resume] [--shard K/N] [--out DIR] [--no-plots] [--titles]", "run the parameter study of a config file", cmdRun},
+		{"levels", "SPECIES_OR_CONFIG [--field \"0:100:21 mG\"] [--format table|ecsv|csv] [--components] [--min-strength X] [--plot FILE] [--titles]", "print Zeeman levels, transitions and hyperfine components", cmdLevels},
+		{"plot", "RUNDIR [--format png,svg] [--titles]", "redraw the figures of a run directory from its tables", cmdPlot},
+		{"merge", "DST SRC... [--format png,svg] [--no-plots] [--titles]", "join shard run directories into one", cmdMerge},
 		{"compare", compareArgs, compareSummary, cmdCompare},
 		{"diagnose", diagnoseArgs, diagnoseSummary, cmdDiagnose},
 		{"zeeman-factor", zfactorArgs, zfactorSummary, cmdZeemanFactor},

@@ -119,7 +119,7 @@ func TestStudyEqualsSingleRuns(t *testing.T) {
 	if code, _, e := maserpol(t, "run", cfg, "--out", all, "--workers", "2"); code != 0 {
 		t.Fatalf("run: exit %d\n%s", code, e)
 	}
-	sum, err := ecsv.ReadFile(filepath.Join(all, "summary.csv"))
+	sum, err := ecsv.ReadFile(filepath.Join(all, "summary.ecsv"))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -198,7 +198,7 @@ func TestResumeAfterKill(t *testing.T) {
 		t.Errorf("resume report: %s", out)
 	}
 	equalMaps(t, tablesOf(snapshot(t, ref)), tablesOf(snapshot(t, d)), "resumed vs uninterrupted")
-	sum, _ := ecsv.ReadFile(filepath.Join(d, "summary.csv"))
+	sum, _ := ecsv.ReadFile(filepath.Join(d, "summary.ecsv"))
 	names, _ := sum.Strings("model")
 	ck, _ := sum.Floats("checkpoint")
 	seen := map[string]bool{}
@@ -401,7 +401,7 @@ func TestDemo(t *testing.T) {
 	}
 	for _, name := range []string{"irc-vela-7-sio", "hydra-w4-water"} {
 		d := filepath.Join(out, name)
-		sum, err := ecsv.ReadFile(filepath.Join(d, "summary.csv"))
+		sum, err := ecsv.ReadFile(filepath.Join(d, "summary.ecsv"))
 		if err != nil {
 			t.Fatal(err)
 		}

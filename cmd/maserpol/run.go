@@ -21,6 +21,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	shard := fs.String("shard", "", "run only shard `K/N`: the models with index % N == K-1 (K = 1..N, like a job-array task index)")
 	out := fs.String("out", "", "run `directory` (default: output.dir of the config)")
 	noPlots := fs.Bool("no-plots", false, "do not draw figures (maserpol plot draws them later)")
+	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -46,7 +47,7 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if *out != "" {
 		dir = *out
 	}
-	code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: *resume, Shard: sh, NoPlots: *noPlots}, stdout, stderr)
+	code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: *resume, Shard: sh, NoPlots: *noPlots, Titles: *titles}, stdout, stderr)
 	if code == exitFailure && ctx.Err() != nil {
 		hint := "maserpol run " + pos[0] + " --resume"
 		if *out != "" {
@@ -140,6 +141,7 @@ func figureKinds(paths []string) string {
 func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("plot", stderr)
 	formats := fs.String("format", "", "comma-separated figure `formats` among png, svg, pdf, eps (default: output.formats of the run's config.toml, else png,svg)")
+	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -149,14 +151,14 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return exitInput
 	}
 	dir := pos[0]
-	if _, err := os.Stat(filepath.Join(dir, "summary.csv")); err != nil {
-		return report(stderr, usagef("%s is not a run directory with results (no summary.csv)", dir))
+	if _, err := os.Stat(runs.SummaryPath(dir)); err != nil {
+		return report(stderr, usagef("%s is not a run directory with results (no %s)", dir, runs.SummaryName))
 	}
 	fm, _, err := figureFormats(*formats, dir)
 	if err != nil {
 		return report(stderr, err)
 	}
-	figs, err := runs.Plot(dir, fm, noteTo(stderr))
+	figs, err := runs.Plot(dir, runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
 	if err != nil {
 		return report(stderr, err)
 	}
@@ -168,6 +170,7 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	fs := flagsFor("merge", stderr)
 	formats := fs.String("format", "", "comma-separated figure `formats` (default: output.formats of the config)")
 	noPlots := fs.Bool("no-plots", false, "do not draw figures")
+	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -192,7 +195,7 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		}
 	}
 	fmt.Fprintf(stdout, "run directory: %s\n  models: %d done, %d failed, %d pending of %d\n  summary:  %s\n",
-		pos[0], done, failed, pending, len(man.Models), filepath.Join(pos[0], "summary.csv"))
+		pos[0], done, failed, pending, len(man.Models), runs.SummaryPath(pos[0]))
 	if pending > 0 {
 		// A partial merge is not a result: say what is missing and how to
 		// finish, and draw no figures of half a study.
@@ -212,7 +215,7 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		return report(stderr, err)
 	}
 	if plots && !*noPlots && done > 0 {
-		figs, err := runs.Plot(pos[0], fm, noteTo(stderr))
+		figs, err := runs.Plot(pos[0], runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
 		if err != nil {
 			return report(stderr, err)
 		}

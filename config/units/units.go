@@ -225,6 +225,23 @@ func Parse(s string, k Kind) (float64, error) {
 	return v, nil
 }
 
+// ParsePlain reads a quantity as Parse does, and also a bare number,
+// taken to be in plainUnit, as config files accept one for the keys whose
+// unit is fixed by the trade (temperatures in K, rates in s^-1, solid
+// angles in sr). Command-line flags use it so that "--tb 1e11" means what
+// tb = 1e11 means in a config. An empty plainUnit requires a unit.
+func ParsePlain(s string, k Kind, plainUnit string) (float64, error) {
+	t := strings.TrimSpace(s)
+	if i := numberEnd(t); i > 0 && i == len(t) && plainUnit != "" {
+		x, err := strconv.ParseFloat(t, 64)
+		if err != nil {
+			return 0, fmt.Errorf("%q: bad number", s)
+		}
+		return plain(x, k, plainUnit)
+	}
+	return Parse(s, k)
+}
+
 // numberEnd returns the length of the leading floating-point literal of s.
 func numberEnd(s string) int {
 	i := 0

@@ -103,3 +103,28 @@ func TestRoundTrip(t *testing.T) {
 		}
 	}
 }
+
+// A bare number in the plain unit, as configs accept; a unit still wins,
+// and without a plain unit a bare number is refused.
+func TestParsePlain(t *testing.T) {
+	for _, c := range []struct {
+		s     string
+		k     Kind
+		plain string
+		want  float64
+	}{
+		{"1e11", Temperature, "K", 1e11},
+		{"300 mK", Temperature, "K", 0.3},
+		{" 0.01 ", SolidAngle, "sr", 0.01},
+		{"5", Rate, "s^-1", 5},
+		{"2 min^-1", Rate, "s^-1", 2.0 / 60},
+	} {
+		got, err := ParsePlain(c.s, c.k, c.plain)
+		if err != nil || math.Abs(got-c.want) > 1e-12*math.Abs(c.want) {
+			t.Errorf("ParsePlain(%q) = %g, %v; want %g", c.s, got, err, c.want)
+		}
+	}
+	if _, err := ParsePlain("5", Field, ""); err == nil {
+		t.Error("a bare field accepted without a plain unit")
+	}
+}

@@ -17,9 +17,11 @@
 //	velocity_kms,I
 //	-1.5,0.25
 //
-// It is read by astropy (Table.read(path, format="ascii.ecsv")) and, since
-// every header line starts with '#', by any CSV reader told to skip comment
-// lines (pandas.read_csv(path, comment="#")).
+// It is read by astropy (Table.read(path), which picks the format from the
+// .ecsv extension; hence every table the program writes is named *.ecsv)
+// and, since every header line starts with '#', by any CSV reader told to
+// skip comment lines (pandas.read_csv(path, comment="#")). NewPlainWriter
+// writes the same rows as plain CSV, for a user who asks for a .csv file.
 //
 // Units are written in the astropy string form ("km / s", "K sr", "mG",
 // "deg"). Floating-point values use the shortest decimal form that

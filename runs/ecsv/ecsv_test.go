@@ -261,3 +261,35 @@ func TestTypedRowsMatchWrite(t *testing.T) {
 		t.Errorf("typed row allocates %g times", n)
 	}
 }
+
+// TestAstropyUnitStrings reads testdata/astropy_units.ecsv, written by
+// astropy 5.2 (make_astropy.py): the composite units maserpol declares
+// ("K sr", "m / (G s)", "1 / G", "1 / s") are spelled as astropy spells
+// them, and nan and booleans read back.
+func TestAstropyUnitStrings(t *testing.T) {
+	tab, err := ReadFile("testdata/astropy_units.ecsv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := map[string]string{"B_mG": "mG", "TbdOmega_Ksr": "K sr", "factor_ms_per_G": "m / (G s)", "pv_per_G": "1 / G", "rate": "1 / s", "valid": "", "q": ""}
+	for name, u := range want {
+		i := tab.Index(name)
+		if i < 0 || tab.Columns[i].Unit != u {
+			t.Errorf("column %s: %+v, want unit %q", name, tab.Columns, u)
+		}
+	}
+	tb, _ := tab.Floats("TbdOmega_Ksr")
+	b, _ := tab.Bools("valid")
+	q, _ := tab.Floats("q")
+	if tb[0] != 1.5e9 || !math.IsNaN(tb[1]) || b[0] || !b[1] || q[0] != -1 {
+		t.Errorf("values %v %v %v", tb, b, q)
+	}
+	// Our writer spells the same units the same way.
+	var buf bytes.Buffer
+	w := NewWriter(&buf, []Column{{Name: "f", Unit: "m / (G s)", Datatype: Float64}}, nil)
+	w.Float(1).End()
+	w.Flush()
+	if !strings.Contains(buf.String(), "unit: m / (G s),") {
+		t.Errorf("writer spells the unit differently:\n%s", buf.String())
+	}
+}

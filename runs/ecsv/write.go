@@ -39,6 +39,7 @@ type Writer struct {
 	header bool
 	buf    []byte
 	ncell  int // cells of the row being built by Float, Int, ...
+	plain  bool
 	err    error
 }
 
@@ -61,9 +62,23 @@ func NewWriter(w io.Writer, cols []Column, meta []Meta) *Writer {
 	return &Writer{w: bufio.NewWriter(w), cols: cols, meta: meta}
 }
 
+// NewPlainWriter returns a Writer of plain CSV: a header row of column
+// names and the rows, formatted as in ECSV (booleans True and False), with
+// no units, descriptions or metadata. It is the export for readers that do
+// not know ECSV; the program writes it only when asked for a .csv file.
+func NewPlainWriter(w io.Writer, cols []Column) *Writer {
+	wr := NewWriter(w, cols, nil)
+	wr.plain = true
+	return wr
+}
+
 func (w *Writer) writeHeader() {
 	w.header = true
 	b := w.w
+	if w.plain {
+		w.writeNames()
+		return
+	}
 	b.WriteString("# %ECSV 1.0\n# ---\n# delimiter: ','\n# datatype:\n")
 	for _, c := range w.cols {
 		b.WriteString("# - {name: ")
@@ -91,6 +106,12 @@ func (w *Writer) writeHeader() {
 		}
 	}
 	b.WriteString("# schema: astropy-2.0\n")
+	w.writeNames()
+}
+
+// writeNames writes the row of column names.
+func (w *Writer) writeNames() {
+	b := w.w
 	for i, c := range w.cols {
 		if i > 0 {
 			b.WriteByte(',')

@@ -1,6 +1,7 @@
 package figures
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
 	"image/color"
@@ -11,6 +12,7 @@ import (
 	"strings"
 
 	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/plotutil"
 	"gonum.org/v1/plot/text"
@@ -55,10 +57,24 @@ type Curve struct {
 	X, Y   []float64
 	Style  int  // colour and dash index; curves with the same Style look alike
 	Points bool // draw markers as well as the line
+	NoLine bool // markers only (scattered points such as random draws)
 	// BreakAbove, when > 0, leaves out the line between neighbouring
 	// points whose y values differ by more than it (an EVPA that flips by
 	// 90 deg is not a smooth change); markers still show every point.
 	BreakAbove float64
+	// YErr, when set, holds a 1-sigma error per point, drawn as error
+	// bars (measured data).
+	YErr []float64
+}
+
+// Band is a shaded region between two curves, e.g. the range a family
+// of models spans; it is drawn under the curves, in the colour of Style.
+type Band struct {
+	Label     string
+	X, Lo, Hi []float64
+	Style     int
+	// Alpha is the opacity of the fill (0 = 0.25).
+	Alpha float64
 }
 
 // Panel is one plot of a stack.
@@ -83,6 +99,15 @@ type Panel struct {
 	ZeroLine bool
 	// Note is one line of text in the top left corner of the data area.
 	Note string
+	// Bands are shaded regions drawn under the curves, with legend entries.
+	Bands []Band
+	// Extra are text-only legend entries after the curves', e.g. what the
+	// markers mean.
+	Extra []string
+	// AutoLogY draws the y axis logarithmic when every value has the same
+	// sign and they span more than two decades; negative values are then
+	// drawn as their magnitude under the label "−" + YLabel.
+	AutoLogY bool
 	// Zeroed marks a panel whose values were set to zero because they are
 	// round-off (see ZeroRoundoff): its axis shows only the tick at 0.
 	Zeroed bool
@@ -113,12 +138,21 @@ func ZeroRoundoff(pn *Panel, tol float64, note string) bool {
 
 // Stack is a figure of panels stacked vertically, sharing the x axis.
 type Stack struct {
+	// Title is drawn above the panels when not empty. Journal figures
+	// carry no title (the caption says what they show), so callers set it
+	// only when asked to.
 	Title  string
 	XLabel string // with unit
 	LogX   bool
 	Panels []Panel
 	// PanelHeight is the height of each panel; default 1.1 in.
 	PanelHeight vg.Length
+	// DataAreas is set by Save: the data area of each panel, in points
+	// from the bottom left corner of the figure (a PNG's pixel rows run
+	// from the top: row = (height - y) * DPI / 72).
+	DataAreas []vg.Rectangle
+	// Size is set by Save: the width and height of the figure.
+	Size vg.Point
 }
 
 // Save draws the stack and writes base.<format> for each format; it
@@ -144,6 +178,7 @@ func (s *Stack) Save(base string, formats []string) (out []string, err error) {
 		}
 		out = append(out, path)
 	}
+	s.DataAreas, s.Size = fig.areas, vg.Point{X: fig.w, Y: fig.h}
 	return out, nil
 }
 
@@ -167,14 +202,29 @@ type figure struct {
 	panels []panelDrawing
 	w, h   vg.Length
 	panelH vg.Length
+	areas  []vg.Rectangle // data areas as drawn
 }
 
 func (s *Stack) layout() (*figure, error) {
 	if len(s.Panels) == 0 {
 		return nil, fmt.Errorf("figure has no panels")
 	}
+	panels := make([]Panel, len(s.Panels))
+	for i, pn := range s.Panels {
+		panels[i] = autoLog(pn)
+	}
 	xmin, xmax := math.Inf(1), math.Inf(-1)
-	for _, pn := range s.Panels {
+	for _, pn := range panels {
+		for _, b := range pn.Bands {
+			if len(b.X) != len(b.Lo) || len(b.X) != len(b.Hi) {
+				return nil, fmt.Errorf("band %q: %d x values, %d and %d y values", b.Label, len(b.X), len(b.Lo), len(b.Hi))
+			}
+			for i, x := range b.X {
+				if usable(x, s.LogX) && usable(b.Lo[i], pn.LogY) && usable(b.Hi[i], pn.LogY) {
+					xmin, xmax = math.Min(xmin, x), math.Max(xmax, x)
+				}
+			}
+		}
 		for _, c := range pn.Curves {
 			if len(c.X) != len(c.Y) {
 				return nil, fmt.Errorf("curve %q: %d x values, %d y values", c.Label, len(c.X), len(c.Y))
@@ -198,7 +248,7 @@ func (s *Stack) layout() (*figure, error) {
 		h = 1.1 * vg.Inch
 	}
 	fig := &figure{title: s.Title, w: ColumnWidth, panelH: h}
-	for i, pn := range s.Panels {
+	for i, pn := range panels {
 		p := plot.New()
 		style(p)
 		p.Y.Label.Text = pn.YLabel
@@ -206,7 +256,7 @@ func (s *Stack) layout() (*figure, error) {
 		p.X.Tick.Marker, p.Y.Tick.Marker = stepTicks{maxLabels: 7}, stepTicks{maxLabels: 6}
 		if s.LogX {
 			p.X.Scale = plot.LogScale{}
-			p.X.Tick.Marker = plot.LogTicks{Prec: -1}
+			p.X.Tick.Marker = decadeTicks{}
 		}
 		if i == len(s.Panels)-1 {
 			p.X.Label.Text = s.XLabel
@@ -228,13 +278,47 @@ func (s *Stack) layout() (*figure, error) {
 			p.Y.Label.Text = scaledLabel(pn.YLabel, e)
 		}
 		ymin, ymax := math.Inf(1), math.Inf(-1)
+		for _, b := range pn.Bands {
+			poly, ok := bandPolygon(b, s.LogX, pn.LogY, yscale)
+			if !ok {
+				continue
+			}
+			for _, q := range poly {
+				ymin, ymax = math.Min(ymin, q.Y), math.Max(ymax, q.Y)
+			}
+			pg, err := plotter.NewPolygon(poly)
+			if err != nil {
+				return nil, err
+			}
+			alpha := b.Alpha
+			if alpha <= 0 {
+				alpha = 0.25
+			}
+			pg.Color = withAlpha(Color(b.Style), alpha)
+			pg.LineStyle.Width = 0
+			p.Add(pg)
+			if pn.Legend && b.Label != "" {
+				pd.legend = append(pd.legend, legendEntry{b.Label, []plot.Thumbnailer{pg}})
+			}
+		}
 		for _, c := range pn.Curves {
 			xy := make(plotter.XYs, 0, len(c.X))
+			var yerr plotter.YErrors
 			for k := range c.X {
 				if usable(c.X[k], s.LogX) && usable(c.Y[k], pn.LogY) {
 					y := c.Y[k] * yscale
 					xy = append(xy, plotter.XY{X: c.X[k], Y: y})
 					ymin, ymax = math.Min(ymin, y), math.Max(ymax, y)
+					if k < len(c.YErr) {
+						e := math.Abs(c.YErr[k] * yscale)
+						if math.IsNaN(e) || math.IsInf(e, 0) {
+							e = 0
+						}
+						yerr = append(yerr, struct{ Low, High float64 }{e, e})
+						if !pn.LogY {
+							ymin, ymax = math.Min(ymin, y-e), math.Max(ymax, y+e)
+						}
+					}
 				}
 			}
 			if len(xy) == 0 {
@@ -244,9 +328,27 @@ func (s *Stack) layout() (*figure, error) {
 			if err != nil {
 				return nil, err
 			}
+			if len(yerr) == len(xy) {
+				eb, err := plotter.NewYErrorBars(struct {
+					plotter.XYs
+					plotter.YErrors
+				}{xy, yerr})
+				if err != nil {
+					return nil, err
+				}
+				eb.Color = Color(c.Style)
+				eb.Width = vg.Points(0.5)
+				eb.CapWidth = vg.Points(1.5)
+				p.Add(eb)
+			}
 			if pn.Legend && c.Label != "" {
 				pd.legend = append(pd.legend, legendEntry{c.Label, thumbs})
 			}
+		}
+		// A linear axis of values that start near zero includes zero, so
+		// that sizes compare by eye (common practice).
+		if !pn.LogY && !pn.Zeroed && ymin >= 0 && ymin < 0.2*ymax {
+			p.Y.Min = 0
 		}
 		switch {
 		case pn.Zeroed:
@@ -254,7 +356,7 @@ func (s *Stack) layout() (*figure, error) {
 			p.Y.Tick.Marker = zeroTick{}
 		case pn.LogY:
 			p.Y.Scale = plot.LogScale{}
-			p.Y.Tick.Marker = plot.LogTicks{Prec: -1}
+			p.Y.Tick.Marker = decadeTicks{}
 			if ymin > ymax { // nothing positive: an empty decade
 				ymin, ymax = 1, 10
 				if pd.note == "" {
@@ -266,6 +368,9 @@ func (s *Stack) layout() (*figure, error) {
 			p.Y.Min, p.Y.Max = widen(ymin, ymax, true)
 		}
 		pd.legend = capLegend(pd.legend, pn.MaxLegend)
+		for _, e := range pn.Extra {
+			pd.legend = append(pd.legend, legendEntry{text: e})
+		}
 		if pn.LegendTitle != "" && len(pd.legend) > 0 {
 			pd.legend = append([]legendEntry{{text: pn.LegendTitle}}, pd.legend...)
 		}
@@ -276,6 +381,92 @@ func (s *Stack) layout() (*figure, error) {
 		fig.h += fig.legendHeight(pd.legend)
 	}
 	return fig, nil
+}
+
+// autoLog returns the panel with a log y axis when AutoLogY is set and its
+// values (curves and bands) share one sign and span more than two decades
+// (common practice: below that a linear axis reads better).
+func autoLog(pn Panel) Panel {
+	if !pn.AutoLogY || pn.LogY || pn.Zeroed {
+		return pn
+	}
+	lo, hi := math.Inf(1), math.Inf(-1)
+	pos, neg := 0, 0
+	see := func(y float64) {
+		if math.IsNaN(y) || math.IsInf(y, 0) {
+			return
+		}
+		switch {
+		case y > 0:
+			pos++
+		case y < 0:
+			neg++
+		default:
+			pos, neg = pos+1, neg+1 // a zero forbids a log axis
+		}
+		lo, hi = math.Min(lo, math.Abs(y)), math.Max(hi, math.Abs(y))
+	}
+	for _, c := range pn.Curves {
+		for _, y := range c.Y {
+			see(y)
+		}
+	}
+	for _, b := range pn.Bands {
+		for k := range b.X {
+			see(b.Lo[k])
+			see(b.Hi[k])
+		}
+	}
+	if pos > 0 && neg > 0 || pos+neg == 0 || !(lo > 0) || hi/lo <= 100 {
+		return pn
+	}
+	pn.LogY = true
+	if neg > 0 {
+		flip := func(y []float64) []float64 {
+			out := make([]float64, len(y))
+			for i, v := range y {
+				out[i] = -v
+			}
+			return out
+		}
+		pn.YLabel = "−" + pn.YLabel
+		cs := make([]Curve, len(pn.Curves))
+		for i, c := range pn.Curves {
+			c.Y = flip(c.Y)
+			cs[i] = c
+		}
+		bs := make([]Band, len(pn.Bands))
+		for i, b := range pn.Bands {
+			b.Lo, b.Hi = flip(b.Hi), flip(b.Lo)
+			bs[i] = b
+		}
+		pn.Curves, pn.Bands = cs, bs
+	}
+	return pn
+}
+
+// bandPolygon is the outline of a band: along Hi, back along Lo, over the
+// points where both are drawable.
+func bandPolygon(b Band, logX, logY bool, yscale float64) (plotter.XYs, bool) {
+	var up, down plotter.XYs
+	for k, x := range b.X {
+		if usable(x, logX) && usable(b.Lo[k], logY) && usable(b.Hi[k], logY) {
+			up = append(up, plotter.XY{X: x, Y: b.Hi[k] * yscale})
+			down = append(down, plotter.XY{X: x, Y: b.Lo[k] * yscale})
+		}
+	}
+	if len(up) < 2 {
+		return nil, false
+	}
+	for k := len(down) - 1; k >= 0; k-- {
+		up = append(up, down[k])
+	}
+	return up, true
+}
+
+func withAlpha(c color.Color, a float64) color.Color {
+	r, g, b, _ := c.RGBA()
+	return color.NRGBA{R: uint8(r >> 8), G: uint8(g >> 8), B: uint8(b >> 8), A: uint8(math.Round(255 * a))}
 }
 
 // powerOfTen returns the exponent e of the unit 10^e in which a linear
@@ -292,6 +483,17 @@ func powerOfTen(pn Panel, logX bool) int {
 			}
 		}
 	}
+	for _, b := range pn.Bands {
+		for k := range b.X {
+			if usable(b.X[k], logX) {
+				for _, y := range []float64{b.Lo[k], b.Hi[k]} {
+					if usable(y, false) {
+						m = math.Max(m, math.Abs(y))
+					}
+				}
+			}
+		}
+	}
 	if m == 0 || m >= 1e-2 && m < 1e4 {
 		return 0
 	}
@@ -299,10 +501,10 @@ func powerOfTen(pn Panel, logX bool) int {
 }
 
 // scaledLabel puts the power of ten into an axis label: "I (K)" becomes
-// "I (10^8 K)", "m_l" becomes "m_l (10^-5)". (The default font lacks
-// superscript 0, 9 and minus, so the exponent is written with a caret.)
+// "I (10^{8} K)", "m_l" becomes "m_l (10^{-5})", drawn as superscripts by
+// the Scripts text handler.
 func scaledLabel(label string, e int) string {
-	p := "10^" + strconv.Itoa(e)
+	p := "10^{" + strconv.Itoa(e) + "}"
 	if i := strings.LastIndex(label, "("); i >= 0 && strings.HasSuffix(label, ")") {
 		return label[:i+1] + p + " " + label[i+1:]
 	}
@@ -317,6 +519,10 @@ func addCurve(p *plot.Plot, c Curve, xy plotter.XYs, solid bool) ([]plot.Thumbna
 	var thumbs []plot.Thumbnailer
 	markers := c.Points
 	for _, seg := range segments(xy, c.BreakAbove) {
+		if c.NoLine {
+			markers = true
+			continue
+		}
 		if len(seg) < 2 {
 			markers = true
 			continue
@@ -437,8 +643,13 @@ func Color(i int) color.Color {
 	return palette[((i%n)+n)%n]
 }
 
+// handler draws every text of a figure, with sub- and superscripts.
+var handler = Scripts{Fonts: font.DefaultCache}
+
 func style(p *plot.Plot) {
 	for _, a := range []*plot.Axis{&p.X, &p.Y} {
+		a.Label.TextStyle.Handler = handler
+		a.Tick.Label.Handler = handler
 		a.Label.TextStyle.Font.Size = vg.Points(labelSize)
 		a.Tick.Label.Font.Size = vg.Points(tickSize)
 		a.Padding = vg.Points(2)
@@ -531,6 +742,29 @@ func tickLabel(x, step float64) string {
 	return strconv.FormatFloat(x, 'f', dec, 64)
 }
 
+// decadeTicks are log-axis ticks labelled at powers of ten: as plain
+// numbers (0.01, 0.1, 1, 10, 100) when every label lies within 1e-3 to
+// 1e4, else all as 10^{k}, drawn with a superscript.
+type decadeTicks struct{}
+
+func (decadeTicks) Ticks(min, max float64) []plot.Tick {
+	ts := plot.LogTicks{Prec: -1}.Ticks(min, max)
+	sci := false
+	for _, t := range ts {
+		if t.Label != "" && (t.Value < 0.999e-3 || t.Value > 1.001e4) {
+			sci = true
+		}
+	}
+	if sci {
+		for i, t := range ts {
+			if t.Label != "" {
+				ts[i].Label = "10^{" + strconv.Itoa(int(math.Round(math.Log10(t.Value)))) + "}"
+			}
+		}
+	}
+	return ts
+}
+
 // zeroTick labels only y = 0, for panels of values that are zero.
 type zeroTick struct{}
 
@@ -552,6 +786,7 @@ func (u unlabelled) Ticks(min, max float64) []plot.Tick {
 func textStyle(size float64) text.Style {
 	p := plot.New()
 	st := p.Legend.TextStyle
+	st.Handler = handler
 	st.Font.Size = vg.Points(size)
 	st.Color = color.Black
 	return st
@@ -650,7 +885,14 @@ func write(path, format string, fig *figure) error {
 	if err != nil {
 		return err
 	}
-	_, err = c.WriteTo(f)
+	var buf bytes.Buffer
+	if _, err = c.WriteTo(&buf); err == nil {
+		b := buf.Bytes()
+		if strings.ToLower(format) == "eps" {
+			b = fixEPS(b)
+		}
+		_, err = f.Write(b)
+	}
 	if cerr := f.Close(); err == nil {
 		err = cerr
 	}
@@ -665,6 +907,31 @@ func write(path, format string, fig *figure) error {
 		return fmt.Errorf("writing %s: %w", path, err)
 	}
 	return nil
+}
+
+// fixEPS repairs the header comments of gonum/plot's EPS output (v0.17) so
+// that it is valid Encapsulated PostScript (Adobe DSC 3.0 and EPSF 3.0
+// specifications): the file must begin with "%!PS-Adobe-3.0 EPSF-3.0" (it
+// writes "%%!PS..."), "%%Creator:" needs its colon, and %%BoundingBox takes
+// integers (the exact box goes to %%HiResBoundingBox).
+func fixEPS(b []byte) []byte {
+	s := string(b)
+	s = strings.Replace(s, "%%!PS-Adobe-3.0 EPSF-3.0\n", "%!PS-Adobe-3.0 EPSF-3.0\n", 1)
+	s = strings.Replace(s, "%%Creator gonum", "%%Creator: maserpol with gonum", 1)
+	if i := strings.Index(s, "%%BoundingBox:"); i >= 0 {
+		j := i + strings.IndexByte(s[i:], '\n')
+		f := strings.Fields(s[i+len("%%BoundingBox:") : j])
+		if len(f) == 4 {
+			var v [4]float64
+			for k := range f {
+				v[k], _ = strconv.ParseFloat(f[k], 64)
+			}
+			box := fmt.Sprintf("%%%%BoundingBox: %d %d %d %d\n%%%%HiResBoundingBox: %s %s %s %s",
+				int(math.Floor(v[0])), int(math.Floor(v[1])), int(math.Ceil(v[2])), int(math.Ceil(v[3])), f[0], f[1], f[2], f[3])
+			s = s[:i] + box + s[j:]
+		}
+	}
+	return []byte(s)
 }
 
 // draw lays the figure out top down: title, then for each panel its
@@ -700,6 +967,10 @@ func (f *figure) draw(dc draw.Canvas) {
 		c.Max.Y += shift[i]
 		pd.p.Draw(c)
 		data := pd.p.DataCanvas(c)
+		if i == 0 {
+			f.areas = f.areas[:0]
+		}
+		f.areas = append(f.areas, data.Rectangle)
 		dataLeft = data.Min.X
 		if pd.note != "" {
 			st := textStyle(noteSize)

@@ -11,6 +11,9 @@ import (
 	"strings"
 	"testing"
 
+	"os/exec"
+	"regexp"
+
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
 )
@@ -169,13 +172,152 @@ func TestPowerOfTenLabels(t *testing.T) {
 	big := Panel{YLabel: "I (K)", Curves: []Curve{{X: []float64{0, 1}, Y: []float64{0, 7.1e10}}}}
 	small := Panel{YLabel: "m_l", Curves: []Curve{{X: []float64{0, 1}, Y: []float64{1e-6, 4.2e-5}}}}
 	plain := Panel{YLabel: "Q (K)", Curves: []Curve{{X: []float64{0, 1}, Y: []float64{0, 0.017}}}}
-	if e := powerOfTen(big, false); e != 10 || scaledLabel(big.YLabel, e) != "I (10^10 K)" {
+	if e := powerOfTen(big, false); e != 10 || scaledLabel(big.YLabel, e) != "I (10^{10} K)" {
 		t.Errorf("big: e = %d, %q", e, scaledLabel(big.YLabel, e))
 	}
-	if e := powerOfTen(small, false); e != -5 || scaledLabel(small.YLabel, e) != "m_l (10^-5)" {
+	if e := powerOfTen(small, false); e != -5 || scaledLabel(small.YLabel, e) != "m_l (10^{-5})" {
 		t.Errorf("small: e = %d, %q", e, scaledLabel(small.YLabel, e))
 	}
 	if e := powerOfTen(plain, false); e != 0 {
 		t.Errorf("0.017 scaled by 10^%d", e)
+	}
+	// A band counts: a small median inside a wide range is not rescaled.
+	banded := Panel{YLabel: "P_V", Curves: []Curve{{X: []float64{0, 1}, Y: []float64{-5e-4, -4e-4}}},
+		Bands: []Band{{X: []float64{0, 1}, Lo: []float64{-0.02, -0.02}, Hi: []float64{0.02, 0.02}}}}
+	if e := powerOfTen(banded, false); e != 0 {
+		t.Errorf("band to 0.02 scaled by 10^%d", e)
+	}
+}
+
+func TestParseScripts(t *testing.T) {
+	for _, c := range []struct {
+		in   string
+		want []scriptRun
+	}{
+		{"m_l", []scriptRun{{"m", 0}, {"l", -1}}},
+		{"P_V (10^{-3})", []scriptRun{{"P", 0}, {"V", -1}, {" (10", 0}, {"-3", 1}, {")", 0}}},
+		{`B\_mG x^`, []scriptRun{{"B_mG x^", 0}}},
+		{"T_{seed} = 3 K", []scriptRun{{"T", 0}, {"seed", -1}, {" = 3 K", 0}}},
+	} {
+		got := parseScripts(c.in)
+		if len(got) != len(c.want) {
+			t.Errorf("%q: %+v, want %+v", c.in, got, c.want)
+			continue
+		}
+		for i := range got {
+			if got[i] != c.want[i] {
+				t.Errorf("%q: %+v, want %+v", c.in, got, c.want)
+			}
+		}
+	}
+	if Escape("file_a^2.toml") != `file\_a\^2.toml` {
+		t.Error(Escape("file_a^2.toml"))
+	}
+	// Sub- and superscripts make text no wider than the plain string.
+	st := textStyle(8)
+	if w1, w2 := st.Width("m_l"), textStyle(8).Width("ml"); w1 >= w2 {
+		t.Errorf("m_l is %v wide, ml %v: the subscript is not smaller", w1, w2)
+	}
+}
+
+// sampleStack has every element a figure draws: Greek letters, sub- and
+// superscripts, a band, error bars, markers, a log axis and a note.
+func sampleStack() *Stack {
+	x := []float64{0.01, 0.1, 1, 10, 100}
+	return &Stack{Title: "m_l and P_V against R/Γ", XLabel: "saturation R/Γ", LogX: true, Panels: []Panel{
+		{YLabel: "m_l", Legend: true, Bands: []Band{{Label: "θ = 0–90°", X: x, Lo: []float64{0, 0, 0.01, 0.05, 0.1}, Hi: []float64{0.01, 0.05, 0.2, 0.3, 0.33}}},
+			Curves: []Curve{{Label: "measured", X: []float64{30}, Y: []float64{0.2}, YErr: []float64{0.03}, Style: 1, Points: true}}, Extra: []string{"markers: R/gΩ > 0.1"}},
+		{YLabel: "P_V", AutoLogY: true, Curves: []Curve{{X: x, Y: []float64{-1e-5, -1e-4, -1e-3, -2e-3, -3e-3}}}, Note: "χ = 0°"},
+	}}
+}
+
+// Every panel of a PNG figure shows ink; an empty panel is detected.
+func TestPNGPanelsNotEmpty(t *testing.T) {
+	dir := t.TempDir()
+	s := sampleStack()
+	paths, err := s.Save(filepath.Join(dir, "f"), []string{"png"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e, err := EmptyPanels(paths[0], s); err != nil || len(e) > 0 {
+		t.Errorf("empty panels %v (%v)", e, err)
+	}
+	// The P_V values span 2.5 decades with one sign: log axis of -P_V.
+	if pn := autoLog(s.Panels[1]); !pn.LogY || pn.YLabel != "−P_V" {
+		t.Errorf("auto log: LogY %v, label %q", pn.LogY, pn.YLabel)
+	}
+	// A panel whose curve lies outside the x range of the others is empty.
+	e := &Stack{XLabel: "x", Panels: []Panel{
+		{YLabel: "a", Curves: []Curve{{X: []float64{0, 1}, Y: []float64{0, 1}}}},
+		{YLabel: "b", Curves: []Curve{{X: []float64{0, 1}, Y: []float64{math.NaN(), math.NaN()}}}},
+	}}
+	paths, err = e.Save(filepath.Join(dir, "e"), []string{"png"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got, _ := EmptyPanels(paths[0], e); len(got) != 1 || got[0] != 1 {
+		t.Errorf("empty panels %v, want [1]", got)
+	}
+}
+
+// GhostscriptRenders renders a PDF or EPS file with Ghostscript (an
+// outside PostScript and PDF interpreter) and fails on any error or
+// warning; it skips when gs is not installed.
+func ghostscriptRenders(t *testing.T, path string) {
+	t.Helper()
+	gs, err := exec.LookPath("gs")
+	if err != nil {
+		t.Skip("Ghostscript not installed (Debian: apt-get install ghostscript); .ci/run installs it")
+	}
+	out := filepath.Join(t.TempDir(), "gs.png")
+	args := []string{"-q", "-dSAFER", "-dBATCH", "-dNOPAUSE", "-dPDFSTOPONERROR", "-sDEVICE=png16m", "-r72", "-sOutputFile=" + out}
+	if strings.HasSuffix(path, ".eps") {
+		args = append(args, "-dEPSCrop")
+	}
+	msg, err := exec.Command(gs, append(args, path)...).CombinedOutput()
+	if err != nil || len(bytes.TrimSpace(msg)) > 0 {
+		t.Errorf("gs %s: %v\n%s", path, err, msg)
+		return
+	}
+	f, err := os.Open(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	img, err := png.Decode(f)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := inkPixels(img, img.Bounds()); n < 1000 {
+		t.Errorf("gs renders %s nearly blank (%d ink pixels)", path, n)
+	}
+}
+
+// PDF and EPS are valid (Ghostscript renders them without a message), EPS
+// starts with the EPSF 3.0 header (Adobe DSC 3.0, EPSF 3.0 specification)
+// with an integer bounding box, and neither depends on a font: text is
+// drawn as glyph outlines, so Greek letters survive code page 1252.
+func TestVectorFormatsValid(t *testing.T) {
+	dir := t.TempDir()
+	paths, err := sampleStack().Save(filepath.Join(dir, "f"), []string{"pdf", "eps"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	eps, _ := os.ReadFile(paths[1])
+	if !bytes.HasPrefix(eps, []byte("%!PS-Adobe-3.0 EPSF-3.0\n")) {
+		t.Errorf("EPS header %q", eps[:min(40, len(eps))])
+	}
+	if !regexp.MustCompile(`(?m)^%%BoundingBox: \d+ \d+ \d+ \d+$`).Match(eps) {
+		t.Error("EPS bounding box not integer")
+	}
+	if bytes.Contains(eps, []byte("findfont")) {
+		t.Error("EPS refers to a font that it does not embed")
+	}
+	pdf, _ := os.ReadFile(paths[0])
+	if bytes.Contains(pdf, []byte("/BaseFont")) {
+		t.Error("PDF refers to a font; text should be outlines")
+	}
+	for _, p := range paths {
+		ghostscriptRenders(t, p)
 	}
 }

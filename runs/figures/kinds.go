@@ -44,11 +44,13 @@ func Spectra(title string, velocityKms []float64, cps []Stokes) *Stack {
 }
 
 // Saturation is the figure of m_l and P_V against saturation R/Γ on a
-// log axis, one curve per model or swept value.
+// log axis, one curve per model or swept value. P_V is given its sign by
+// the caller (the sign of A in V = A dI/dv), so that the field direction
+// shows.
 func Saturation(title string, ml, pv []Curve) *Stack {
 	return &Stack{Title: title, XLabel: "saturation R/Γ", LogX: true, Panels: []Panel{
 		{YLabel: "m_l", Curves: ml, Legend: true},
-		{YLabel: "P_V", Curves: pv},
+		{YLabel: "signed P_V", Curves: pv, ZeroLine: true, AutoLogY: true},
 	}}
 }
 

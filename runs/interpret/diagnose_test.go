@@ -3,10 +3,12 @@ package interpret
 import (
 	"context"
 	"math"
+	"path/filepath"
 	"strings"
 	"testing"
 
 	"maserpol/levels/species"
+	"maserpol/runs/figures"
 	"maserpol/transfer"
 )
 
@@ -244,6 +246,26 @@ func TestDiagnoseSiO(t *testing.T) {
 	// (physics.md section 8), and they say how the EVPA lies.
 	if v := verdict(t, d, WeakField); !v.Valid || v.RGOmega.Lo < 1 {
 		t.Errorf("weak-field cases: valid %v, R/gOmega %.3g..%.3g (want valid, >= 1)", v.Valid, v.RGOmega.Lo, v.RGOmega.Hi)
+	}
+	// The figure: a shaded band per mechanism, the measurement as a point
+	// with its error bar, every panel showing ink.
+	fig := DiagnosisFigure(d, "")
+	if n := len(fig.Panels[0].Bands); n != len(d.Envelopes)+1 {
+		t.Errorf("%d bands for %d mechanisms and the measurement", n, len(d.Envelopes))
+	}
+	measured := false
+	for _, c := range fig.Panels[0].Curves {
+		measured = measured || len(c.YErr) == 1 && c.YErr[0] == 2*0.02
+	}
+	if !measured {
+		t.Error("the measurement has no error bar")
+	}
+	paths, err := fig.Save(filepath.Join(t.TempDir(), "diag"), []string{"png"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e, err := figures.EmptyPanels(paths[0], fig); err != nil || len(e) > 0 {
+		t.Errorf("empty panels %v (%v)", e, err)
 	}
 }
 

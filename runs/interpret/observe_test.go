@@ -11,6 +11,7 @@ import (
 	"maserpol/config"
 	"maserpol/runs"
 	"maserpol/runs/ecsv"
+	"maserpol/runs/figures"
 )
 
 const obsDir = "../../testdata/observed"
@@ -60,6 +61,26 @@ func TestRankRecoversInventedObservation(t *testing.T) {
 	trueModel, _ := tab.MetaValue("true_model")
 	rk := Rank(obs, models, FitOptions{})
 	best := rk[0]
+	// The figure: data as points with error bars, models named by the
+	// parameters that tell them apart, not by m0002.
+	fig := CompareFigure(obs, rk[:2], "")
+	for _, pn := range fig.Panels {
+		if c := pn.Curves[0]; len(c.YErr) != obs.Channels() || !c.NoLine {
+			t.Errorf("%s: observed data drawn without error bars or as a line", pn.YLabel)
+		}
+	}
+	for _, c := range fig.Panels[0].Curves[1:] {
+		if !strings.Contains(c.Label, "θ = ") || strings.Contains(c.Label, "m000") || !strings.Contains(c.Label, "χ^2_r") {
+			t.Errorf("model legend %q", c.Label)
+		}
+	}
+	paths, err := fig.Save(filepath.Join(t.TempDir(), "best"), []string{"png"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if e, err := figures.EmptyPanels(paths[0], fig); err != nil || len(e) > 0 {
+		t.Errorf("empty panels %v (%v)", e, err)
+	}
 	if best.Model.Name != trueModel {
 		t.Errorf("best model %s, want %s (ranking: %v)", best.Model.Name, trueModel, names(rk))
 	}

@@ -7,6 +7,7 @@ import (
 	"strconv"
 
 	"maserpol/config/units"
+	"maserpol/runs"
 	"maserpol/runs/ecsv"
 )
 
@@ -17,7 +18,7 @@ type Param struct {
 }
 
 // RunModel is one model of a run directory: its parameters, and its
-// spectra per checkpoint with the validity figures from summary.csv.
+// spectra per checkpoint with the validity figures from summary.ecsv.
 type RunModel struct {
 	Name        string
 	Params      []Param
@@ -35,15 +36,15 @@ func (m *RunModel) Param(name string) (float64, bool) {
 	return 0, false
 }
 
-// ReadRunDir reads summary.csv and spectra/<model>.ecsv of a run directory
+// ReadRunDir reads summary.ecsv and spectra/<model>.ecsv of a run directory
 // (layout of package runs). Models whose spectrum file is missing (failed
 // or pending) are skipped and named in the warnings.
 func ReadRunDir(dir string) ([]RunModel, []string, error) {
-	sumPath := filepath.Join(dir, "summary.csv")
+	sumPath := runs.SummaryPath(dir)
 	t, err := ecsv.ReadFile(sumPath)
 	if err != nil {
 		if os.IsNotExist(err) {
-			return nil, nil, fmt.Errorf("%s: not a run directory (no summary.csv)", dir)
+			return nil, nil, fmt.Errorf("%s: not a run directory (no "+runs.SummaryName+")", dir)
 		}
 		return nil, nil, err
 	}
