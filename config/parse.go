@@ -443,8 +443,8 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			Formats: pd.strs["output.formats"],
 		},
 	}
-	if pd.species.Unverified {
-		st.Warnings = append(st.Warnings, fmt.Sprintf("species %s has constants that are not checked against a source (see its notes)", pd.species.Name))
+	if w := pd.species.UnverifiedWarning(); w != "" {
+		st.Warnings = append(st.Warnings, w)
 	}
 
 	// Columns beyond the three always reported.

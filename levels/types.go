@@ -99,6 +99,10 @@ type Species struct {
 	// Unverified is true when some constant comes from memory or is
 	// otherwise not checked against a source; users get a warning.
 	Unverified bool
+	// UnverifiedValues names the values that are not checked (e.g.
+	// "rotational g"); it may be empty when Unverified is set without
+	// naming them. UnverifiedWarning turns it into the user's warning.
+	UnverifiedValues []string
 	// Notes carry the source of each constant, as written in the species file.
 	Notes []string
 }

@@ -277,8 +277,8 @@ func (m *Model) setup() error {
 		m.rhoV = 2 * FaradayCoefficient * p.ElectronDensity * 1e6 * bpar * lambda * lambda * p.GainLength
 	}
 	m.gOmega = m.zeemanRate()
-	if sp.Unverified {
-		m.warnf("species %q has unverified constants", sp.Name)
+	if w := sp.UnverifiedWarning(); w != "" {
+		m.warnf("%s", w)
 	}
 
 	// Workspaces.

@@ -58,8 +58,8 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		if err != nil {
 			return report(stderr, err)
 		}
-		if sp.Unverified {
-			fmt.Fprintf(stderr, "maserpol: warning: species %s has constants not checked against a source (marked unverified); treat the numbers as illustrative\n", names[k])
+		if w := sp.UnverifiedWarning(); w != "" {
+			fmt.Fprintf(stderr, "maserpol: warning: %s (%s)\n", w, names[k])
 		}
 		lt, err := solveLevels(sp, fields, unit)
 		if err != nil {

@@ -187,11 +187,22 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		return nil, e
 	}
 	if v, ok := raw["unverified"]; ok {
-		b, isB := v.(bool)
-		if !isB {
-			return nil, p.err("unverified", "true, false", "must be a boolean, got %s", typeName(v))
+		const allowed = "true, false, or an array naming the unchecked values"
+		switch x := v.(type) {
+		case bool:
+			sp.Unverified = x
+		case []any:
+			for i, e := range x {
+				s, isS := e.(string)
+				if !isS || strings.TrimSpace(s) == "" {
+					return nil, p.err("unverified", allowed, "entry %d is %s, not a non-empty string", i, typeName(e))
+				}
+				sp.UnverifiedValues = append(sp.UnverifiedValues, s)
+			}
+			sp.Unverified = len(sp.UnverifiedValues) > 0
+		default:
+			return nil, p.err("unverified", allowed, "must be a boolean or an array of strings, got %s", typeName(v))
 		}
-		sp.Unverified = b
 	}
 	if v, ok := raw["sources"]; ok {
 		list, isL := v.([]any)

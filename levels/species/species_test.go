@@ -13,7 +13,7 @@ import (
 
 func TestPresetsLoad(t *testing.T) {
 	names := Names()
-	for _, want := range []string{"sio-v1-j1-0", "h2o-22", "oh-like-main", "synthetic-j6-5", "hcn-like-j1-0"} {
+	for _, want := range []string{"sio-v1-j1-0", "h2o-22", "oh-like-main", "synthetic-j6-5", "hcn-like-j1-0", "sio-v1-j2-1"} {
 		found := false
 		for _, n := range names {
 			found = found || n == want
@@ -28,8 +28,12 @@ func TestPresetsLoad(t *testing.T) {
 			t.Errorf("%s: %v", n, err)
 			continue
 		}
-		if !sp.Unverified || len(sp.Notes) == 0 {
-			t.Errorf("%s: presets carry values from memory or invented: want Unverified and Notes", n)
+		if len(sp.Notes) == 0 {
+			t.Errorf("%s: a preset names its sources", n)
+		}
+		// A preset flags exactly the values it cannot source, by name.
+		if sp.Unverified != (len(sp.UnverifiedValues) > 0) {
+			t.Errorf("%s: Unverified = %v with %d named values", n, sp.Unverified, len(sp.UnverifiedValues))
 		}
 		cs, err := levels.Components(sp)
 		if err != nil {
