@@ -44,6 +44,12 @@ func NewTransitionSolver(sp *Species) (*TransitionSolver, error) {
 		return nil, fmt.Errorf("%s: lower level: %w", sp.Name, err)
 	}
 	t := &TransitionSolver{sp: sp, up: up, lo: lo, norm: 2*sp.Upper.J + 1}
+	if sp.IsTable() {
+		// The reduced elements of table.go carry the normalization.
+		t.norm = 1
+		t.tablePairs()
+		return t, nil
+	}
 	tju, tjl := up.tj[0], lo.tj[0]
 	// Lower-block lookup by twice M.
 	lbOf := map[int]int{}

@@ -22,6 +22,9 @@ func pumpWeights(pm Pump, st *levels.Structure, byF map[float64]float64) ([]floa
 			w[i] = 1
 		}
 	case Anisotropic:
+		if len(st.Level.Table) > 0 {
+			return nil, fmt.Errorf("transfer: anisotropic pumping weights states by <m_J^2>, which a species given as a component table does not define: use its Hamiltonian form, or hyperfine-selective pumping")
+		}
 		j := st.Level.J
 		jj := j * (j + 1)
 		// Normalize 3<m_J^2> - J(J+1) by its largest magnitude over m_J so

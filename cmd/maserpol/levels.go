@@ -24,7 +24,7 @@ import (
 func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("levels", stderr)
 	field := fs.String("field", "", "field `grid`: \"START:STOP:N UNIT\" (N evenly spaced values), a list \"a,b,c UNIT\" or one value \"25 mG\" (default \"0:100:21 mG\" for paramagnetic species, \"0:100:21 G\" for closed-shell ones)")
-	format := fs.String("format", "table", "output `format`: table or csv")
+	format := fs.String("format", "table", "output `format`: table, csv, or components (the species as a component-table species file)")
 	plotFile := fs.String("plot", "", "also draw the Zeeman diagram into `FILE` (.png, .svg, .pdf or .eps; no extension: png and svg)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -34,8 +34,8 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		fs.Usage()
 		return exitInput
 	}
-	if *format != "table" && *format != "csv" {
-		return report(stderr, usagef("--format %q: allowed: table, csv", *format))
+	if *format != "table" && *format != "csv" && *format != "components" {
+		return report(stderr, usagef("--format %q: allowed: table, csv, components", *format))
 	}
 	sps, names, err := resolveSpecies(pos[0])
 	if err != nil {
@@ -53,6 +53,15 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 			if sp.Magneton == levels.Bohr {
 				grid = "0:100:21 mG"
 			}
+		}
+		if *format == "components" {
+			if w := sp.UnverifiedWarning(); w != "" {
+				fmt.Fprintf(stderr, "maserpol: warning: %s (%s)\n", w, names[k])
+			}
+			if err := writeComponentTable(stdout, sp, names[k]); err != nil {
+				return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
+			}
+			continue
 		}
 		fields, unit, err := parseFieldGrid(grid)
 		if err != nil {
@@ -296,6 +305,10 @@ func composition(s *levels.Structure, x *levels.State) string {
 	type term struct {
 		w float64
 		i int
+	}
+	if len(s.Level.Table) > 0 {
+		// A component-table level has the basis |F M>: states are pure.
+		return fmt.Sprintf("1.000|F=%s,M=%s>", half(x.F), half(x.M))
 	}
 	var ts []term
 	for i, a := range x.Vector {

@@ -146,8 +146,11 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		}
 		return nil, &Error{File: filename, Msg: "TOML: " + err.Error()}
 	}
-	if err := p.checkKeys("", raw, topKeys); err != nil {
-		return nil, err
+	_, isTable := raw["components"]
+	if !isTable {
+		if err := p.checkKeys("", raw, topKeys); err != nil {
+			return nil, err
+		}
 	}
 	sp := &levels.Species{}
 	var err error
@@ -160,10 +163,10 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	if !(sp.Frequency > 0) {
 		return nil, p.err("frequency", "> 0", "rest frequency must be positive")
 	}
-	if sp.EinsteinA, err = p.quantity(raw, "einstein_a", units.Rate, "s^-1", true); err != nil {
+	if sp.EinsteinA, err = p.quantity(raw, "einstein_a", units.Rate, "s^-1", !isTable); err != nil {
 		return nil, err
 	}
-	if !(sp.EinsteinA > 0) {
+	if _, given := raw["einstein_a"]; given && !(sp.EinsteinA > 0) {
 		return nil, p.err("einstein_a", "> 0", "Einstein A must be positive")
 	}
 	if sp.Mass, err = p.quantity(raw, "mass", units.Mass, "amu", true); err != nil {
@@ -218,6 +221,12 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		}
 	}
 	sp.Upper.Magneton, sp.Lower.Magneton = sp.Magneton, sp.Magneton
+	if isTable {
+		if err := p.parseTable(raw, data, sp); err != nil {
+			return nil, err
+		}
+		return sp, nil
+	}
 	for _, lv := range []struct {
 		key string
 		dst *levels.Level
