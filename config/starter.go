@@ -87,6 +87,10 @@ func StarterNamed(speciesName, name string) (string, error) {
 			val = tomlString(speciesName)
 		case "field.strength":
 			val = tomlString(sv.field)
+		case "field.theta":
+			if sv.theta != "" {
+				val = tomlString(sv.theta)
+			}
 		case "line.doppler":
 			val = tomlString(sv.doppler)
 		case "line.channels":
@@ -147,6 +151,7 @@ func upperFirst(s string) string {
 // starter holds the species-dependent values of a starter config.
 type starter struct {
 	field, doppler, span string
+	theta                string // "" = the schema's example
 	channels             int
 	saturation           float64
 	notes                []string // comment lines explaining the choice
@@ -201,6 +206,19 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 	t := typical[name]
 	if t.doppler != "" {
 		sv.doppler = t.doppler
+	}
+	// A species file may carry its own typical conditions ([typical]);
+	// the starter then also ends the run where the populations-only model
+	// stops holding at that field, so that it covers the whole run.
+	fromSpecies := t.field == "" && sp.Typical.Field > 0
+	if fromSpecies {
+		t.field = fieldText(sp.Typical.Field)
+	}
+	if t.doppler == "" && sp.Typical.Doppler > 0 {
+		sv.doppler = strconv.FormatFloat(units.In(sp.Typical.Doppler, units.Velocity, "km/s"), 'g', 3, 64) + " km/s"
+	}
+	if sp.Typical.Theta > 0 {
+		sv.theta = strconv.FormatFloat(units.In(sp.Typical.Theta, units.Angle, "deg"), 'g', 4, 64) + " deg"
 	}
 	vd, _ := units.Parse(sv.doppler, units.Velocity)
 	strongest := 0.0
@@ -286,7 +304,11 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 	switch {
 	case t.field != "":
 		b, _ = units.Parse(t.field, units.Field)
-		sv.notes = append(sv.notes, "Field and line width: values typical of observed masers of this line (common practice).")
+		if fromSpecies {
+			sv.notes = append(sv.notes, "Field, line width and angle: the typical values of the species file ([typical]).")
+		} else {
+			sv.notes = append(sv.notes, "Field and line width: values typical of observed masers of this line (common practice).")
+		}
 	case sp.Magneton == levels.Bohr:
 		b = nearestNice(3 * vd / maxShift)
 		sv.notes = append(sv.notes, fmt.Sprintf("Field: largest Zeeman shift %.2g km/s, about 3 Doppler widths (resolved Zeeman pairs).", b*maxShift/1e3))
@@ -340,6 +362,9 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 		satValid := validLimit * g / gamma
 		first := transfer.DefaultFirstCheckpoint
 		switch {
+		case fromSpecies && satValid < sv.saturation && satValid > 10*first:
+			sv.saturation = niceBelow(satValid)
+			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega <= 0.1 up to saturation R/Gamma = %.2g at this field; the run ends at %g, inside it.", satValid, sv.saturation))
 		case satValid >= sv.saturation:
 			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega = %.2g at the final saturation %g: the populations-only model holds over the whole run.", rEnd/g, sv.saturation))
 		case math.Log(satValid/first) >= 0.5*math.Log(sv.saturation/first):

@@ -127,6 +127,9 @@ type Species struct {
 	UnverifiedValues []string
 	// Notes carry the source of each constant, as written in the species file.
 	Notes []string
+	// Typical holds conditions typical of observed masers of this line,
+	// which starter configs use; zero values are not given.
+	Typical Typical
 	// TableLines are the components of a component-table species (both
 	// levels with a Table); nil for the Hamiltonian form.
 	TableLines []TableLine
@@ -177,4 +180,11 @@ type Component struct {
 	// LinearUpTo is the field (gauss) below which the component's shifts stay
 	// linear in B within 1 % (the onset of hyperfine decoupling).
 	LinearUpTo float64
+}
+
+// Typical is a set of conditions typical of observed masers of a line.
+type Typical struct {
+	Field   float64 // gauss
+	Doppler float64 // 1/e half-width of the velocity distribution, m/s
+	Theta   float64 // angle of the field to the line of sight, rad
 }

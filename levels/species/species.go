@@ -94,7 +94,7 @@ func (p *parser) err(key, allowed, format string, a ...any) *Error {
 }
 
 var (
-	topKeys      = []string{"name", "frequency", "einstein_a", "mass", "magneton", "unverified", "sources", "upper", "lower", "spin", "coupling"}
+	topKeys      = []string{"name", "frequency", "einstein_a", "mass", "magneton", "unverified", "sources", "typical", "upper", "lower", "spin", "coupling"}
 	levelKeys    = []string{"J", "g", "label"}
 	spinKeys     = []string{"name", "I", "g", "shielding"}
 	couplingKeys = []string{"kind", "level", "spins", "value", "source"}
@@ -219,6 +219,9 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 			}
 			sp.Notes = append(sp.Notes, s)
 		}
+	}
+	if err := p.typical(raw, sp); err != nil {
+		return nil, err
 	}
 	sp.Upper.Magneton, sp.Lower.Magneton = sp.Magneton, sp.Magneton
 	if isTable {
@@ -573,4 +576,39 @@ func typeName(v any) string {
 		return "a table"
 	}
 	return fmt.Sprintf("%T", v)
+}
+
+// typical reads the optional [typical] table: conditions typical of
+// observed masers of the line, used by starter configs.
+func (p *parser) typical(raw map[string]any, sp *levels.Species) error {
+	v, ok := raw["typical"]
+	if !ok {
+		return nil
+	}
+	t, ok := v.(map[string]any)
+	if !ok {
+		return p.err("typical", "a table with field, fwhm and theta", "must be a table, got %s", typeName(v))
+	}
+	if err := p.checkKeys("typical", t, []string{"field", "fwhm", "theta"}); err != nil {
+		return err
+	}
+	var err error
+	if sp.Typical.Field, err = p.quantity(t, "field", units.Field, "", false, "typical"); err != nil {
+		return err
+	}
+	fwhm, err := p.quantity(t, "fwhm", units.Velocity, "", false, "typical")
+	if err != nil {
+		return err
+	}
+	if _, given := t["fwhm"]; given && !(fwhm > 0) {
+		return p.err("typical.fwhm", "> 0 km/s", "line width must be positive")
+	}
+	sp.Typical.Doppler = fwhm / (2 * math.Sqrt(math.Ln2))
+	if sp.Typical.Theta, err = p.quantity(t, "theta", units.Angle, "", false, "typical"); err != nil {
+		return err
+	}
+	if sp.Typical.Theta < 0 || sp.Typical.Theta > math.Pi {
+		return p.err("typical.theta", "0 .. 180 deg", "angle out of range")
+	}
+	return nil
 }

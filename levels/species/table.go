@@ -31,7 +31,7 @@ import (
 // the species magneton). F values may be written "7/2".
 
 var (
-	tableTopKeys   = []string{"name", "frequency", "einstein_a", "mass", "magneton", "unverified", "sources", "upper", "lower", "components"}
+	tableTopKeys   = []string{"name", "frequency", "einstein_a", "mass", "magneton", "unverified", "sources", "typical", "upper", "lower", "components"}
 	tableLevelKeys = []string{"J", "label"}
 	componentsKeys = []string{"spins", "table"}
 	tableColumns   = []string{"Fu", "Fl", "F1u", "F1l", "offset_<unit>", "strength", "A", "gFu", "gFl"}

@@ -126,3 +126,55 @@ func TestTableEqualsHamiltonian(t *testing.T) {
 		}
 	}
 }
+
+// The two methanol-like examples of testdata/species describe the same
+// invented molecule: the table, written by TableRows from the Hamiltonian
+// (levels --format components), gives back its zero-field components,
+// strengths and weak-field splittings to the printed digits.
+func TestMethanolExamples(t *testing.T) {
+	ham, err := species.Load("../../testdata/species/methanol-like-6.7-hamiltonian.toml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	tab, err := species.Load("../../testdata/species/methanol-like-6.7-table.toml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !ham.Unverified || !tab.Unverified {
+		t.Error("illustrative examples must be flagged unverified")
+	}
+	ch, err := levels.Components(ham)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ct, err := levels.Components(tab)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(ch) != len(ct) {
+		t.Fatalf("%d components in the table, %d from the Hamiltonian", len(ct), len(ch))
+	}
+	main := 0
+	for i := range ch {
+		h, c := ch[i], ct[i]
+		// Printed digits: offsets 1 Hz, strengths 1e-8, g_F 8 significant.
+		if h.Fu != c.Fu || h.F1u != c.F1u || h.Fl != c.Fl || h.F1l != c.F1l ||
+			math.Abs(h.Offset-c.Offset) > 2 || math.Abs(h.Strength-c.Strength) > 2e-8 ||
+			math.Abs(h.SplitHzPerG-c.SplitHzPerG) > 1e-6*math.Abs(h.SplitHzPerG)+1e-3 {
+			t.Errorf("component %d: table %+v, Hamiltonian %+v", i, c, h)
+		}
+		if h.Strength > 0.05 {
+			main++
+		}
+	}
+	// The 6.7 GHz line has eight main hyperfine components (species-sources.md).
+	if main != 8 {
+		t.Errorf("%d main components, want 8", main)
+	}
+	// Couplings of 1-15 kHz put the main components within a few kHz.
+	for _, c := range ct {
+		if c.Strength > 0.05 && math.Abs(c.Offset) > 5e3 {
+			t.Errorf("main component F=%g-%g at %.3g kHz", c.Fu, c.Fl, c.Offset/1e3)
+		}
+	}
+}

@@ -1,0 +1,44 @@
+package config
+
+import (
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+)
+
+// A species file with [typical] conditions (the methanol-like examples)
+// gets a starter with that field, width and angle, and a final saturation
+// inside the populations-only validity at that field.
+func TestStarterFromSpeciesTypical(t *testing.T) {
+	for _, f := range []string{"methanol-like-6.7-table.toml", "methanol-like-6.7-hamiltonian.toml"} {
+		dir := t.TempDir()
+		src, err := os.ReadFile(filepath.Join("..", "testdata", "species", f))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(filepath.Join(dir, f), src, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		text, err := StarterNamed(filepath.Join(dir, f), "meth")
+		if err != nil {
+			t.Fatalf("%s: %v", f, err)
+		}
+		for _, want := range []string{`strength = "10 mG"`, `theta = "60 deg"`, `doppler = "0.18 km/s"`, "the run ends at"} {
+			if !strings.Contains(text, want) {
+				t.Errorf("%s: starter lacks %q", f, want)
+			}
+		}
+		cfg := filepath.Join(dir, "meth.toml")
+		if err := os.WriteFile(cfg, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		st, err := Load(cfg)
+		if err != nil {
+			t.Fatalf("%s: starter does not load: %v", f, err)
+		}
+		if n := len(st.Models); n != 1 {
+			t.Errorf("%s: %d models", f, n)
+		}
+	}
+}
