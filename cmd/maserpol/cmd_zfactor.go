@@ -19,14 +19,14 @@ import (
 )
 
 const (
-	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--csv FILE]"
+	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl|F1u,Fu-F1l,Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--csv FILE]"
 	zfactorSummary = "compute the factor that turns Stokes V into B cos(theta), against the linear-Zeeman estimate"
 )
 
 // cmdZeemanFactor is "maserpol zeeman-factor".
 func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("zeeman-factor", zfactorArgs, zfactorSummary, stderr)
-	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), an index as listed, or F labels \"2-1\"")
+	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), an index as listed by maserpol levels, F labels \"2-1\", or F1 and F of both levels \"13/2,7-15/2,8\"")
 	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit")
 	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution")
 	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution (overrides --doppler)")
@@ -138,8 +138,9 @@ func parseAngleList(s string) ([]float64, error) {
 	return out, nil
 }
 
-// pickComponent resolves --component: "blend", an index into
-// levels.Components, or "Fu-Fl" labels.
+// pickComponent resolves --component: "blend", or a component as
+// levels.SelectComponent reads it (an index into levels.Components, "Fu-Fl",
+// or "F1u,Fu-F1l,Fl"); an ambiguous label is refused with its candidates.
 func pickComponent(sp *levels.Species, s string) (int, error) {
 	if s == "" || s == "blend" {
 		return interpret.Blend, nil
@@ -148,25 +149,18 @@ func pickComponent(sp *levels.Species, s string) (int, error) {
 	if err != nil {
 		return 0, err
 	}
-	var list []string
-	for i, c := range cs {
-		list = append(list, fmt.Sprintf("%d (F=%g-%g)", i, c.Fu, c.Fl))
-		if fmt.Sprintf("%g-%g", c.Fu, c.Fl) == s {
-			return i, nil
-		}
+	i, err := levels.SelectComponent(cs, s)
+	if err != nil {
+		return 0, usagef("--component %q: %v (or blend)", s, err)
 	}
-	if i, err := strconv.Atoi(s); err == nil && i >= 0 && i < len(cs) {
-		return i, nil
-	}
-	return 0, usagef("--component %q: no such component (allowed: blend, %s)", s, strings.Join(list, ", "))
+	return i, nil
 }
 
 func compName(f *interpret.Factors) string {
 	if f.Component == interpret.Blend {
 		return "blend of all components"
 	}
-	c := f.Components[f.Component]
-	return fmt.Sprintf("component %d, F=%g-%g", f.Component, c.Fu, c.Fl)
+	return fmt.Sprintf("component %d, F=%s", f.Component, levels.ComponentLabels(f.Components)[f.Component])
 }
 
 func printFactors(w io.Writer, f *interpret.Factors) {

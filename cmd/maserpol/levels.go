@@ -369,13 +369,14 @@ func (lt *levelTables) writeTable(w io.Writer, name string) {
 	fmt.Fprintf(w, "Upper level J = %s, lower level J = %s; energies E/h relative to the unsplit level, offsets relative to the rest frequency.\n\n", half(sp.Upper.J), half(sp.Lower.J))
 	fmt.Fprintf(w, "Zero-field hyperfine components (weak-field splitting: sigma+ centroid minus pi centroid):\n")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintf(tw, "Fu\tF1u\tFl\tF1l\toffset (kHz)\tstrength\tsplit (Hz/G)\tsplit (km/s/G)\tlinear up to (G)\t\n")
-	for _, c := range lt.comps {
-		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%.4f\t%.5f\t%.5g\t%.5g\t%s\t\n", half(c.Fu), half(c.F1u), half(c.Fl), half(c.F1l),
+	fmt.Fprintf(tw, "#\tlabel\tFu\tF1u\tFl\tF1l\toffset (kHz)\tstrength\tsplit (Hz/G)\tsplit (km/s/G)\tlinear up to (G)\t\n")
+	labels := levels.ComponentLabels(lt.comps)
+	for i, c := range lt.comps {
+		fmt.Fprintf(tw, "%d\t%s\t%s\t%s\t%s\t%s\t%.4f\t%.5f\t%.5g\t%.5g\t%s\t\n", i, labels[i], half(c.Fu), half(c.F1u), half(c.Fl), half(c.F1l),
 			units.In(c.Offset, units.Frequency, "kHz"), c.Strength, c.SplitHzPerG, c.SplitKmsPerG, linearUpTo(c.LinearUpTo))
 	}
 	tw.Flush()
-	fmt.Fprintf(w, "(linear up to: field below which the splitting stays linear in B within 1 %%; inf = no hyperfine decoupling found up to 1e6 G)\n")
+	fmt.Fprintf(w, "(#, label: how --component names a component; linear up to: field below which the splitting stays linear in B within 1 %%; inf = no hyperfine decoupling found up to 1e6 G)\n")
 	for i, b := range lt.fields {
 		fmt.Fprintf(w, "\nField B = %s\n", fieldText(b, lt.unit))
 		for k, lev := range []string{"upper", "lower"} {
