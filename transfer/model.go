@@ -250,11 +250,11 @@ func (m *Model) setup() error {
 	// two-level line saturates as 1/(1 + 2R/Gamma) for any Gamma_u, Gamma_l.
 	m.gamma = 2 * p.GammaUpper * p.GammaLower / (p.GammaUpper + p.GammaLower)
 	gU, gL := p.GammaUpper/m.gamma, p.GammaLower/m.gamma
-	wU, err := pumpWeights(p.Pump, m.tr.Upper, p.Pump.UpperF)
+	wU, err := levelPumpWeights(p.Pump, m.tr.Upper, true)
 	if err != nil {
 		return err
 	}
-	wL, err := pumpWeights(p.Pump, m.tr.Lower, p.Pump.LowerF)
+	wL, err := levelPumpWeights(p.Pump, m.tr.Lower, false)
 	if err != nil {
 		return err
 	}
