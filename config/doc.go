@@ -91,7 +91,8 @@
 //	pump.kind                      -        "isotropic"    "isotropic", "anisotropic", "hyperfine"          -
 //	pump.alignment                 -        0.0            -1 .. 1, signed anisotropy (anisotropic), sweep alignment
 //	pump.lower_ratio               -        0.0            0 .. < gamma_lower/gamma_upper, lower/upper pump rate, sweep lower_ratio
-//	pump.upper_f                   -        all 1          { "F" = weight >= 0 } (hyperfine); F as "2", "1.5" or "3/2"  -
+//	pump.component                 -        -              index or label "Fu-Fl", "F1u,Fu-F1l,Fl" (hyperfine): pump only its upper level, sweep component
+//	pump.upper_f                   -        all 1          { "F" = weight >= 0 } or { "F1,F" = weight } (hyperfine); F as "2", "1.5" or "3/2"  -
 //	pump.lower_f                   -        all 1          as upper_f, for the lower level                  -
 //	seed.tb                        K        "2.725 K"      > 0 K, seed brightness temperature, sweep       tb_K
 //	seed.linear                    -        0.0            0 .. 1, linear fraction, sweep                  seed_linear
@@ -128,8 +129,11 @@
 // self-contained; an inline [species] table is kept as a table. Parsing
 // Resolved gives the same models, and its own Resolved is byte-identical.
 //
-// Pump weights (pump.upper_f, pump.lower_f) must name F labels the level
-// has: the zero-field multiplets of its hyperfine structure.
+// Pump weights (pump.upper_f, pump.lower_f) must name F labels (or F1,F
+// pairs) the level has: the zero-field multiplets of its hyperfine
+// structure. pump.component names a component as levels.SelectComponent
+// reads it; labels become indices in the resolved config, so a list of them
+// sweeps like any integer key.
 //
 // Starter and StarterNamed write a commented starter configuration, every
 // key with its unit, default and allowed range, named after the file

@@ -61,7 +61,7 @@ func (s *spec) allowed() string {
 	case tString:
 		return "a string"
 	case tWeights:
-		return `a table of F label = weight >= 0, e.g. { "1" = 1.0, "2" = 0.5 }`
+		return `a table of F label (or "F1,F") = weight >= 0, e.g. { "1" = 1.0, "2" = 0.5 } or { "13/2,7" = 2.0 }`
 	}
 	f := func(x float64) string {
 		if s.typ == tQuantity {
@@ -191,6 +191,8 @@ func schema() []*spec {
 		{table: "pump", name: "lower_ratio", typ: tNumber, column: "lower_ratio",
 			def: "0.0", min: 0, max: 1e6, doc: "pump rate into each lower sublevel relative to each upper one (< gamma_lower/gamma_upper)",
 			set: func(p *transfer.Params, x float64) { p.Pump.LowerPump = x }},
+		{table: "pump", name: "component", typ: tInt, column: "component", example: "0",
+			min: 0, max: 100000, doc: "pump only the upper hyperfine level of this component (kind = \"hyperfine\"): an index as listed by maserpol levels, or a label \"Fu-Fl\" or \"F1u,Fu-F1l,Fl\"; a list compares components"},
 		{table: "pump", name: "upper_f", typ: tWeights, example: `{ "1" = 1.0, "2" = 0.5 }`, doc: "relative pump weights of upper F labels for kind = \"hyperfine\" (missing: 1)"},
 		{table: "pump", name: "lower_f", typ: tWeights, example: `{ "1" = 1.0 }`, doc: "relative pump weights of lower F labels for kind = \"hyperfine\" (missing: 1)"},
 

@@ -22,6 +22,7 @@ var commented = map[string]bool{
 	"line.temperature": true,
 	"line.turbulence":  true,
 	"column.gain":      true,
+	"pump.component":   true,
 	"pump.upper_f":     true,
 	"pump.lower_f":     true,
 }
