@@ -19,14 +19,14 @@ import (
 )
 
 const (
-	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl|F1u,Fu-F1l,Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--csv FILE]"
+	zfactorArgs    = "SPECIES [--component blend|each|N|Fu-Fl|F1u,Fu-F1l,Fl] [--plot FILE] [--theta LIST] [--doppler V] [--saturation MAX] [--csv FILE]"
 	zfactorSummary = "compute the factor that turns Stokes V into B cos(theta), against the linear-Zeeman estimate"
 )
 
 // cmdZeemanFactor is "maserpol zeeman-factor".
 func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("zeeman-factor", zfactorArgs, zfactorSummary, stderr)
-	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), an index as listed by maserpol levels, F labels \"2-1\", or F1 and F of both levels \"13/2,7-15/2,8\"")
+	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), \"each\" (every main component pumped alone, compared), an index as listed by maserpol levels, F labels \"2-1\", or F1 and F of both levels \"13/2,7-15/2,8\"")
 	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit")
 	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution")
 	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution (overrides --doppler)")
@@ -35,6 +35,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	b0 := fs.String("b0", "", "small model field, e.g. \"2 G\" (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
 	csvPath := fs.String("csv", "", "write the table as CSV to this file")
+	plotPath := fs.String("plot", "", "with --component each: draw the components' I and V into `FILE` (.png, .svg, .pdf, .eps; none: PNG and SVG)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -82,6 +83,12 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 		return report(stderr, usagef("--theta %q: %v", *thetas, interpret.ErrNoAngles))
 	}
 	spec.Thetas = th
+	if *comp == "each" {
+		return zfactorEach(ctx, spec, *workers, *csvPath, *plotPath, stdout, stderr)
+	}
+	if *plotPath != "" {
+		return report(stderr, usagef("--plot: only with --component each"))
+	}
 	if spec.Component, err = pickComponent(sp, *comp); err != nil {
 		return report(stderr, err)
 	}

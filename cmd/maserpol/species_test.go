@@ -2,6 +2,9 @@ package main
 
 import (
 	"bytes"
+	"math"
+	"os"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -33,5 +36,47 @@ func TestUnverifiedWarningOnce(t *testing.T) {
 	}
 	if w := oh.UnverifiedWarning(); w != "" {
 		t.Errorf("OH preset is sourced, got warning %q", w)
+	}
+}
+
+// zeeman-factor --component each: every HCN component pumped alone is an
+// isolated line, so its unsaturated factor is the thin-line linear-Zeeman
+// value V = cos(theta) dv_Z dI/dv (standard weak-field relation; physics.md
+// section 7) within 3 % (the fit's channel and integration error).
+func TestZeemanFactorEach(t *testing.T) {
+	dir := t.TempDir()
+	csvPath := dir + "/each.csv"
+	code, out, errs := runCmd(cmdZeemanFactor, "hcn-like-j1-0", "--component", "each", "--theta", "30 deg", "--saturation", "0.3", "--csv", csvPath, "--plot", dir+"/each.png")
+	if code != exitOK {
+		t.Fatalf("exit %d\n%s\n%s", code, out, errs)
+	}
+	data, err := os.ReadFile(csvPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	seen := map[string]bool{}
+	for _, line := range strings.Split(string(data), "\n") {
+		f := strings.Split(line, ",")
+		if len(f) < 12 || f[0] == "component" || strings.HasPrefix(line, "#") {
+			continue
+		}
+		seen[f[1]] = true
+		factor, _ := strconv.ParseFloat(f[9], 64)
+		linear, _ := strconv.ParseFloat(f[10], 64)
+		sat, _ := strconv.ParseFloat(f[6], 64)
+		if sat < 0.01 && math.Abs(factor/linear-1) > 0.03 {
+			t.Errorf("component %s at R/Gamma %g: factor %g, linear %g", f[1], sat, factor, linear)
+		}
+	}
+	for _, l := range []string{"1-1", "2-1", "0-1"} {
+		if !seen[l] {
+			t.Errorf("component %s missing from the CSV", l)
+		}
+	}
+	if _, err := os.Stat(dir + "/each.png"); err != nil {
+		t.Errorf("figure: %v", err)
+	}
+	if n := strings.Count(errs, "not checked against a source"); n != 1 {
+		t.Errorf("unverified warning printed %d times, want once:\n%s", n, errs)
 	}
 }

@@ -1,0 +1,186 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"math"
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+	"text/tabwriter"
+
+	"maserpol/runs/figures"
+	"maserpol/runs/interpret"
+	"maserpol/transfer"
+)
+
+// zfactorEach is "zeeman-factor --component each": the factor of every
+// main hyperfine component pumped alone, a summary table, the CSV and a
+// figure comparing their I and V.
+func zfactorEach(ctx context.Context, spec interpret.FactorSpec, workers int, csvPath, plotPath string, stdout, stderr io.Writer) int {
+	base, formats, err := plotTarget(plotPath)
+	if err != nil {
+		return report(stderr, err)
+	}
+	res, err := interpret.EachComponent(ctx, spec, workers, transfer.Run)
+	if err != nil {
+		return report(stderr, err)
+	}
+	sp := spec.Base.Species
+	fmt.Fprintf(stdout, "Zeeman factors of %s, each main component (strength >= %g of the strongest) pumped alone\n", sp.Name, interpret.MainComponentFraction)
+	fmt.Fprintf(stdout, "  which component masers is not known: each row assumes it is this one (pump only its upper F level)\n\n")
+	tw := tabwriter.NewWriter(stdout, 2, 4, 2, ' ', 0)
+	fmt.Fprintln(tw, "#\tlabel\tvelocity (km/s)\tstrength\tlinear (m/s per G)\ttheta (deg)\tfactor, unsaturated (m/s per G)\tfactor, highest valid R/Gamma (m/s per G)\tat R/Gamma")
+	var warnings []string
+	for _, r := range res {
+		f := r.Factors
+		c := f.Components[r.Index]
+		for _, th := range thetasOf(f) {
+			lo, hi := validRange(f, th)
+			loF, hiF, hiS := "-", "-", "-"
+			if lo != nil {
+				loF = g3(lo.Factor)
+			}
+			if hi != nil {
+				hiF, hiS = g3(hi.Factor), g3(hi.Saturation)
+			}
+			fmt.Fprintf(tw, "%d\t%s\t%.4f\t%.4f\t%s\t%s\t%s\t%s\t%s\n", r.Index, r.Label, r.Velocity/1e3, c.Strength, g3(f.Linear), g3(th*180/math.Pi), loF, hiF, hiS)
+		}
+		for _, w := range f.Warnings {
+			if w == sp.UnverifiedWarning() {
+				continue // printed once below
+			}
+			warnings = append(warnings, fmt.Sprintf("component %s: %s", r.Label, w))
+		}
+	}
+	tw.Flush()
+	fmt.Fprintf(stdout, "\n(valid: good fit of V = A dI/dv + C I and R/(g Omega) <= 0.1 at the component's B0; \"-\": none valid)\n")
+	seen := map[string]bool{}
+	for _, w := range warnings {
+		if !seen[w] {
+			seen[w] = true
+			fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
+		}
+	}
+	if w := sp.UnverifiedWarning(); w != "" {
+		fmt.Fprintf(stderr, "maserpol: warning: %s\n", w)
+	}
+	if csvPath != "" {
+		if err := writeAtomically(csvPath, eachCSV(res)); err != nil {
+			return report(stderr, err)
+		}
+		fmt.Fprintf(stderr, "maserpol: wrote %s\n", csvPath)
+	}
+	if plotPath != "" {
+		paths, err := eachFigure(res, sp.Name).Save(base, formats)
+		if err != nil {
+			return report(stderr, err)
+		}
+		for _, p := range paths {
+			fmt.Fprintf(stderr, "maserpol: wrote %s\n", p)
+		}
+	}
+	return exitOK
+}
+
+func thetasOf(f *interpret.Factors) []float64 {
+	var out []float64
+	for _, r := range f.Rows {
+		if len(out) == 0 || out[len(out)-1] != r.Theta {
+			out = append(out, r.Theta)
+		}
+	}
+	return out
+}
+
+// validRange returns the valid rows of angle th at the lowest and at the
+// highest saturation (nil when none).
+func validRange(f *interpret.Factors, th float64) (lo, hi *interpret.FactorRow) {
+	for i := range f.Rows {
+		r := &f.Rows[i]
+		if r.Theta != th || !r.Valid {
+			continue
+		}
+		if lo == nil || r.Saturation < lo.Saturation {
+			lo = r
+		}
+		if hi == nil || r.Saturation > hi.Saturation {
+			hi = r
+		}
+	}
+	return lo, hi
+}
+
+func eachCSV(res []interpret.ComponentFactors) []byte {
+	var b csvBuffer
+	b.comment("maserpol zeeman-factor --component each: every main component pumped alone")
+	b.comment("factor = A/(B0 cos theta) from V = A dI/dv + C I; B cos(theta) = A_observed/factor; valid: good fit and R/(g Omega) <= 0.1 at B0")
+	b.row("component", "label", "velocity_kms", "strength", "B0_G", "theta_deg", "saturation", "r_over_gomega", "valid", "factor_ms_per_G", "linear_ms_per_G", "residual")
+	for _, r := range res {
+		f := r.Factors
+		for _, x := range f.Rows {
+			b.row(strconv.Itoa(r.Index), r.Label, fcsv(r.Velocity/1e3), fcsv(f.Components[r.Index].Strength), fcsv(f.B0), fcsv(x.Theta*180/math.Pi),
+				fcsv(x.Saturation), fcsv(x.RoverGOmega), strconv.FormatBool(x.Valid), fcsv(x.Factor), fcsv(x.Linear), fcsv(x.Residual))
+		}
+	}
+	return b.Bytes()
+}
+
+// eachFigure compares the components pumped alone at the first angle: I
+// over its peak, and V per unit B cos(theta) over the peak of I (1/G), at
+// the highest checkpoint inside the populations-only validity.
+func eachFigure(res []interpret.ComponentFactors, name string) *figures.Stack {
+	var ic, vc []figures.Curve
+	theta := 0.0
+	for k, r := range res {
+		tr := r.Factors.First
+		if tr == nil || len(tr.Checkpoints) == 0 {
+			continue
+		}
+		cp := tr.Checkpoints[0]
+		for _, c := range tr.Checkpoints {
+			if c.Valid {
+				cp = c
+			}
+		}
+		theta = r.Factors.Rows[0].Theta
+		x := make([]float64, len(tr.Velocity))
+		yi := make([]float64, len(x))
+		yv := make([]float64, len(x))
+		scale := cp.IPeak * r.Factors.B0 * math.Cos(theta)
+		for j := range x {
+			x[j] = tr.Velocity[j] / 1e3
+			yi[j] = cp.I[j] / cp.IPeak
+			yv[j] = cp.V[j] / scale
+		}
+		label := fmt.Sprintf("%s (R/Γ %.2g)", r.Label, cp.Saturation)
+		ic = append(ic, figures.Curve{Label: label, X: x, Y: yi, Style: k})
+		vc = append(vc, figures.Curve{Label: label, X: x, Y: yv, Style: k})
+	}
+	return &figures.Stack{
+		Title:  fmt.Sprintf("%s: each component pumped alone, θ = %.0f deg, highest valid R/Γ", name, theta*180/math.Pi),
+		XLabel: "velocity (km/s)",
+		Panels: []figures.Panel{
+			{YLabel: "I / I_peak", Curves: ic, Legend: true, LegendTitle: "component", MaxLegend: 12},
+			{YLabel: "V / (I_peak B cos θ) (1/G)", Curves: vc, ZeroLine: true},
+		},
+	}
+}
+
+// plotTarget splits a --plot file into the base name and the formats: the
+// extension's, or PNG and SVG without one.
+func plotTarget(file string) (string, []string, error) {
+	if file == "" {
+		return "", nil, nil
+	}
+	ext := strings.ToLower(strings.TrimPrefix(filepath.Ext(file), "."))
+	if ext == "" {
+		return file, []string{"png", "svg"}, nil
+	}
+	if !slices.Contains(figures.Formats, ext) {
+		return "", nil, usagef("--plot %s: unknown figure format %q (allowed: %s)", file, ext, strings.Join(figures.Formats, ", "))
+	}
+	return strings.TrimSuffix(file, filepath.Ext(file)), []string{ext}, nil
+}
