@@ -74,7 +74,7 @@ func zfactorEach(ctx context.Context, spec interpret.FactorSpec, workers int, cs
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", csvPath)
 	}
 	if plotPath != "" {
-		paths, err := eachFigure(res, sp.Name).Save(base, formats)
+		paths, err := eachFigure(res).Save(base, formats)
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -131,7 +131,7 @@ func eachCSV(res []interpret.ComponentFactors) []byte {
 // eachFigure compares the components pumped alone at the first angle: I
 // over its peak, and V per unit B cos(theta) over the peak of I (1/G), at
 // the highest checkpoint inside the populations-only validity.
-func eachFigure(res []interpret.ComponentFactors, name string) *figures.Stack {
+func eachFigure(res []interpret.ComponentFactors) *figures.Stack {
 	var ic, vc []figures.Curve
 	theta := 0.0
 	for k, r := range res {
@@ -159,8 +159,24 @@ func eachFigure(res []interpret.ComponentFactors, name string) *figures.Stack {
 		ic = append(ic, figures.Curve{Label: label, X: x, Y: yi, Style: k})
 		vc = append(vc, figures.Curve{Label: label, X: x, Y: yv, Style: k})
 	}
+	// Show the lines, not the empty wings of the grid.
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, c := range ic {
+		for j, y := range c.Y {
+			if y > 1e-3 {
+				lo, hi = math.Min(lo, c.X[j]), math.Max(hi, c.X[j])
+			}
+		}
+	}
+	if hi > lo {
+		pad := 0.25 * (hi - lo)
+		for k := range ic {
+			ic[k].X, ic[k].Y = crop(ic[k].X, ic[k].Y, lo-pad, hi+pad)
+			vc[k].X, vc[k].Y = crop(vc[k].X, vc[k].Y, lo-pad, hi+pad)
+		}
+	}
 	return &figures.Stack{
-		Title:  fmt.Sprintf("%s: each component pumped alone, θ = %.0f deg, highest valid R/Γ", name, theta*180/math.Pi),
+		Title:  fmt.Sprintf("each component pumped alone, θ = %.0f deg", theta*180/math.Pi),
 		XLabel: "velocity (km/s)",
 		Panels: []figures.Panel{
 			{YLabel: "I / I_peak", Curves: ic, Legend: true, LegendTitle: "component", MaxLegend: 12},
@@ -183,4 +199,15 @@ func plotTarget(file string) (string, []string, error) {
 		return "", nil, usagef("--plot %s: unknown figure format %q (allowed: %s)", file, ext, strings.Join(figures.Formats, ", "))
 	}
 	return strings.TrimSuffix(file, filepath.Ext(file)), []string{ext}, nil
+}
+
+// crop keeps the points with lo <= x <= hi.
+func crop(x, y []float64, lo, hi float64) ([]float64, []float64) {
+	var cx, cy []float64
+	for i := range x {
+		if x[i] >= lo && x[i] <= hi {
+			cx, cy = append(cx, x[i]), append(cy, y[i])
+		}
+	}
+	return cx, cy
 }
