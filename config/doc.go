@@ -85,6 +85,7 @@
 //	line.turbulence                km/s     "0 km/s"       0 .. 100 km/s, with temperature only, sweep     turb_kms
 //	line.channels                  -        256            16 .. 65536, integer, sweep                     channels
 //	line.span                      km/s     "0 km/s"       0 .. 10000 km/s, total span; 0 = automatic, sweep span_kms
+//	line.reference                 -        -              component index or label ("1-1", "13/2,7-15/2,8"): velocity 0 at its rest frequency  -
 //	rates.gamma_upper              s^-1     "1 s^-1"       > 0 .. 1e9 s^-1, sweep                          gamma_upper_per_s
 //	rates.gamma_lower              s^-1     "1 s^-1"       > 0 .. 1e9 s^-1, sweep                          gamma_lower_per_s
 //	beam.solid_angle               sr       "0.01 sr"      > 0 .. 4 pi sr, beaming dOmega, sweep           dOmega_sr

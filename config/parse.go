@@ -153,6 +153,9 @@ func (ps *parser) parse(data []byte) (*Study, *Error) {
 	if err := ps.checkFLabels(pd); err != nil {
 		return nil, err
 	}
+	if err := ps.reference(pd); err != nil {
+		return nil, err
+	}
 	return ps.expand(pd, specs)
 }
 

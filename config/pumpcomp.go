@@ -166,3 +166,22 @@ func (ps *parser) checkLevelKeys(pd *parsed, path string, l levels.Level) *Error
 	}
 	return nil
 }
+
+// reference moves the velocity zero of the species to the component named
+// by line.reference (levels.Species.Referenced).
+func (ps *parser) reference(pd *parsed) *Error {
+	ref := pd.str["line.reference"]
+	if ref == "" || ref == "rest" {
+		return nil
+	}
+	cs, err := pd.components()
+	if err != nil {
+		return ps.err("line.reference", "", "species %s: %v", pd.species.Name, err)
+	}
+	i, err := levels.SelectComponent(cs, ref)
+	if err != nil {
+		return ps.err("line.reference", componentsAllowed(cs)+", or \"rest\"", "%v", err)
+	}
+	pd.species = pd.species.Referenced(cs[i].Offset)
+	return nil
+}

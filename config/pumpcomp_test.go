@@ -93,3 +93,24 @@ func asError(err error, e **Error) bool {
 	*e = x
 	return ok
 }
+
+// line.reference: velocity 0 at the chosen OH line (LAMDA 1665.402 MHz);
+// an unknown one is refused at its key.
+func TestLineReference(t *testing.T) {
+	st, err := Parse([]byte("species = \"oh-like-main\"\n[field]\nstrength = \"3 mG\"\n[line]\nreference = \"1-1\"\n"), "c.toml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sp := st.Models[0].Params.Species
+	if d := sp.Frequency - 1665.402e6; d > 1e3 || d < -1e3 {
+		t.Errorf("reference frequency %.6f MHz, want 1665.402", sp.Frequency/1e6)
+	}
+	if !strings.Contains(string(st.Resolved), `reference = "1-1"`) {
+		t.Errorf("resolved config lacks the reference:\n%s", st.Resolved)
+	}
+	_, err = Parse([]byte("species = \"oh-like-main\"\n[field]\nstrength = \"3 mG\"\n[line]\nreference = \"3-1\"\n"), "c.toml")
+	var e *Error
+	if err == nil || !asError(err, &e) || e.Key != "line.reference" || !strings.Contains(e.Allowed, `"2-2"`) {
+		t.Errorf("unknown reference: %v", err)
+	}
+}

@@ -172,6 +172,7 @@ func schema() []*spec {
 		{table: "line", name: "span", typ: tQuantity, kind: units.Velocity, unit: "km/s", column: "span_kms",
 			def: `"0 km/s"`, min: 0, max: 1e7, doc: "total velocity span of the channels; 0 = automatic",
 			set: func(p *transfer.Params, x float64) { p.Span = x }},
+		{table: "line", name: "reference", typ: tString, example: `"0"`, doc: "hyperfine component whose rest frequency is velocity 0 and the centre of a given span (index or label as maserpol levels lists them); default: the unsplit line"},
 
 		{table: "rates", name: "gamma_upper", typ: tQuantity, kind: units.Rate, plain: "s^-1", unit: "s^-1", column: "gamma_upper_per_s",
 			def: rateDefault, min: 0, minOpen: true, max: 1e9, doc: "decay rate of the upper eigenstates",

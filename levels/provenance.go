@@ -19,3 +19,16 @@ func (sp *Species) UnverifiedWarning() string {
 	}
 	return fmt.Sprintf("species %q: not checked against a source: %s; results that depend on them are illustrative", sp.Name, strings.Join(sp.UnverifiedValues, "; "))
 }
+
+// Referenced returns a copy of sp whose Frequency is that of the component
+// at offset (Hz, from sp.Frequency, as levels.Component.Offset): velocities
+// of every line are then measured from that component's rest frequency,
+// as observers of a multi-line species such as OH do for each line. The
+// level structure is shared; offsets of lines and components become
+// relative to the new Frequency.
+func (sp *Species) Referenced(offset float64) *Species {
+	c := *sp
+	c.Frequency += offset
+	c.ReferenceShift += offset
+	return &c
+}

@@ -151,7 +151,7 @@ func (t *TransitionSolver) Solve(field float64, dst *Transition) error {
 					Upper:     ub.start + a,
 					Lower:     lb.start + b,
 					Q:         p.q,
-					Offset:    ub.outE[a] - lb.outE[b],
+					Offset:    ub.outE[a] - lb.outE[b] - t.sp.ReferenceShift,
 					Strength:  s,
 					Amplitude: sqrtNorm * v,
 				})

@@ -127,6 +127,11 @@ type Species struct {
 	UnverifiedValues []string
 	// Notes carry the source of each constant, as written in the species file.
 	Notes []string
+	// ReferenceShift (Hz) is how far Frequency was moved from the unsplit
+	// line to a chosen hyperfine component (Referenced), so that velocities
+	// are measured from that component; line and component offsets stay
+	// relative to Frequency. Level energies are not affected.
+	ReferenceShift float64
 	// Typical holds conditions typical of observed masers of this line,
 	// which starter configs use; zero values are not given.
 	Typical Typical

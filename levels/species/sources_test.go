@@ -269,3 +269,47 @@ func TestWaterStrengthsFrom6j(t *testing.T) {
 		}
 	}
 }
+
+// Velocities of OH referenced to the 1665 MHz line: its component sits at
+// offset 0, the 1667 MHz line at +1.957 MHz from it (LAMDA), and the
+// splittings do not change.
+func TestReferenced(t *testing.T) {
+	sp, err := Preset("oh-like-main")
+	if err != nil {
+		t.Fatal(err)
+	}
+	cs, err := levels.Components(sp)
+	if err != nil {
+		t.Fatal(err)
+	}
+	i, err := levels.SelectComponent(cs, "1-1")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ref := sp.Referenced(cs[i].Offset)
+	if math.Abs(ref.Frequency-1665.402e6) > 1e3 {
+		t.Errorf("reference frequency %.6f MHz, want 1665.402", ref.Frequency/1e6)
+	}
+	rc, err := levels.Components(ref)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := range cs {
+		if math.Abs(rc[k].Offset-(cs[k].Offset-cs[i].Offset)) > 1e-6 || rc[k].SplitHzPerG != cs[k].SplitHzPerG || rc[k].LinearUpTo != cs[k].LinearUpTo {
+			t.Errorf("component %d: referenced %+v, original %+v", k, rc[k], cs[k])
+		}
+	}
+	if j, _ := levels.SelectComponent(rc, "2-2"); math.Abs(rc[j].Offset-1.957e6) > 1e3 {
+		t.Errorf("1667 MHz line at %.4f MHz from 1665, want 1.957", rc[j].Offset/1e6)
+	}
+	tr, err := levels.NewTransition(ref, 1e-3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr0, _ := levels.NewTransition(sp, 1e-3)
+	for k := range tr.Lines {
+		if math.Abs(tr.Lines[k].Offset-(tr0.Lines[k].Offset-cs[i].Offset)) > 1e-6 {
+			t.Fatalf("line %d offset %g, want %g", k, tr.Lines[k].Offset, tr0.Lines[k].Offset-cs[i].Offset)
+		}
+	}
+}
