@@ -51,10 +51,10 @@ func TestPresetsLoad(t *testing.T) {
 }
 
 func TestPresetValues(t *testing.T) {
-	// OH-like: the constants reproduce the four ground-state lines that the
-	// preset was built from (1612.231, 1665.402, 1667.359, 1720.530 MHz, from
-	// memory) to 1 kHz, and the 1665/1667 MHz sigma-sigma splittings
-	// 0.590/0.354 km/s per mG (from memory) to 1 %.
+	// OH: the constants reproduce the four ground-state lines (LAMDA,
+	// TestOHFromSources) to 1 kHz, and the 1665/1667 MHz sigma-sigma
+	// splittings observers use, 0.590/0.354 km/s per mG (common practice),
+	// to 1 %.
 	sp, err := Preset("oh-like-main")
 	if err != nil {
 		t.Fatal(err)
