@@ -40,5 +40,14 @@ func TestStarterFromSpeciesTypical(t *testing.T) {
 		if n := len(st.Models); n != 1 {
 			t.Errorf("%s: %d models", f, n)
 		}
+		// The resolved config carries the species inline (the table as a
+		// string) and gives the same model.
+		st2, err := Parse(st.Resolved, filepath.Join(t.TempDir(), "config.toml"))
+		if err != nil {
+			t.Fatalf("%s: resolved config: %v", f, err)
+		}
+		if st2.Hash != st.Hash || len(st2.Models[0].Params.Species.TableLines) != len(st.Models[0].Params.Species.TableLines) {
+			t.Errorf("%s: resolved config differs (hash %s vs %s)", f, st2.Hash, st.Hash)
+		}
 	}
 }

@@ -58,10 +58,12 @@ const OffsetTolerance = 50.0
 // of a component-table species from its rows. F-level energies are the
 // least-squares solution of E_u - E_l = Offset over all rows, with the
 // (2F_u+1)-weighted mean upper energy of each connected set of rows at 0.
-// Notes report departures of the strengths from the degeneracy rule (the
-// strengths out of each upper F level in proportion to 2F_u+1) by more than
-// 2 %. Errors are *RowError values.
-func TableFromComponents(rows []ComponentRow) (upper, lower []FLevel, lines []TableLine, notes []string, err error) {
+// Notes report departures from what a complete table obeys: relative
+// strengths out of each upper F level in proportion to 2F_u+1 (within 2 %),
+// or, when the rows carry Einstein A values (einsteinA), equal summed A of
+// every upper F level (within 5 %, which allows for the nu^3 factor across
+// a few per cent in frequency). Errors are *RowError values.
+func TableFromComponents(rows []ComponentRow, einsteinA bool) (upper, lower []FLevel, lines []TableLine, notes []string, err error) {
 	if len(rows) == 0 {
 		return nil, nil, nil, nil, &RowError{Row: -1, Column: "-", Msg: "the table has no rows"}
 	}
@@ -136,9 +138,15 @@ func TableFromComponents(rows []ComponentRow) (upper, lower []FLevel, lines []Ta
 		wsum += 2*x.F + 1
 	}
 	for k, x := range upper {
+		if einsteinA {
+			if mean := ref / float64(len(upper)); math.Abs(tot[k]/mean-1) > 0.05 {
+				notes = append(notes, fmt.Sprintf("the A values of upper F1=%g F=%g sum to %.4g s^-1, %.0f %% off the mean over F levels: a component may be missing; A values are used as branching ratios within each upper F level", x.F1, x.F, tot[k], 100*(tot[k]/mean-1)))
+			}
+			continue
+		}
 		want := ref * (2*x.F + 1) / wsum
 		if math.Abs(tot[k]/want-1) > 0.02 {
-			notes = append(notes, fmt.Sprintf("the components of upper F1=%g F=%g sum to %.3g of the total, the degeneracy rule gives %.3g: strengths are used as branching ratios within each upper F level (an Einstein A column, or missing weak components, explain this)", x.F1, x.F, tot[k]/ref, want/ref))
+			notes = append(notes, fmt.Sprintf("the components of upper F1=%g F=%g sum to %.3g of the total, the degeneracy rule gives %.3g: a component may be missing; strengths are used as branching ratios within each upper F level", x.F1, x.F, tot[k]/ref, want/ref))
 		}
 	}
 	for i := range lines {

@@ -364,9 +364,16 @@ func linearUpTo(g float64) string {
 
 func (lt *levelTables) writeTable(w io.Writer, name string) {
 	sp := lt.sp
-	fmt.Fprintf(w, "Species %s (%s): rest frequency %s, A = %g s^-1, %s magneton\n",
+	fmt.Fprintf(w, "Species %s (%s): rest frequency %s, A = %.4g s^-1, %s magneton\n",
 		name, sp.Name, units.Format(sp.Frequency, units.Frequency, "GHz"), sp.EinsteinA, strings.ToLower(sp.Magneton.String()))
-	fmt.Fprintf(w, "Upper level J = %s, lower level J = %s; energies E/h relative to the unsplit level, offsets relative to the rest frequency.\n\n", half(sp.Upper.J), half(sp.Lower.J))
+	fmt.Fprintf(w, "Upper level J = %s, lower level J = %s; energies E/h relative to the unsplit level, offsets relative to the rest frequency.\n", half(sp.Upper.J), half(sp.Lower.J))
+	if len(sp.Upper.Table) > 0 {
+		fmt.Fprintf(w, "Defined by a hyperfine component table: each F level splits linearly with its g_F, no mixing between F levels (linear up to: inf by construction).\n")
+	}
+	for _, n := range sp.Notes {
+		fmt.Fprintf(w, "Source: %s\n", n)
+	}
+	fmt.Fprintln(w)
 	fmt.Fprintf(w, "Zero-field hyperfine components (weak-field splitting: sigma+ centroid minus pi centroid):\n")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintf(tw, "#\tlabel\tFu\tF1u\tFl\tF1l\toffset (kHz)\tstrength\tsplit (Hz/G)\tsplit (km/s/G)\tlinear up to (G)\t\n")

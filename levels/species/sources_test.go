@@ -313,3 +313,39 @@ func TestReferenced(t *testing.T) {
 		}
 	}
 }
+
+// The OH ground state as a component table from LAMDA's Einstein A values
+// (testdata/species/oh-ground-table.toml) agrees with the Hamiltonian
+// preset referenced to 1665 MHz: offsets within 1 kHz, weak-field
+// splittings within 0.1 % (the g_F of the file are rounded to 5 digits),
+// and the Einstein A derived from the A column within 0.5 %.
+func TestOHTableFromLAMDA(t *testing.T) {
+	tab, err := Load("../../testdata/species/oh-ground-table.toml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ham, err := Preset("oh-like-main")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ch, _ := levels.Components(ham)
+	i, _ := levels.SelectComponent(ch, "1-1")
+	ref := ham.Referenced(ch[i].Offset)
+	ch, _ = levels.Components(ref)
+	ct, err := levels.Components(tab)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(ct) != len(ch) {
+		t.Fatalf("%d components, want %d", len(ct), len(ch))
+	}
+	for k := range ch {
+		h, c := ch[k], ct[k]
+		if h.Fu != c.Fu || h.Fl != c.Fl || math.Abs(h.Offset-c.Offset) > 1e3 || math.Abs(c.SplitHzPerG/h.SplitHzPerG-1) > 1e-3 {
+			t.Errorf("F=%g-%g: table offset %.6f MHz split %.5g Hz/G; Hamiltonian %.6f MHz %.5g Hz/G", c.Fu, c.Fl, c.Offset/1e6, c.SplitHzPerG, h.Offset/1e6, h.SplitHzPerG)
+		}
+	}
+	if math.Abs(tab.EinsteinA/ham.EinsteinA-1) > 5e-3 {
+		t.Errorf("A from the table %.4g s^-1, preset %.4g", tab.EinsteinA, ham.EinsteinA)
+	}
+}

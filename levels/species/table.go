@@ -147,7 +147,7 @@ func (p *parser) parseTable(raw map[string]any, data []byte, sp *levels.Species)
 			}
 		}
 	}
-	up, lo, lines, notes, err := levels.TableFromComponents(rows)
+	up, lo, lines, notes, err := levels.TableFromComponents(rows, hasA)
 	if err != nil {
 		var re *levels.RowError
 		if errors.As(err, &re) {
