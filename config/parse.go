@@ -494,6 +494,9 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 	}
 
 	kind := transfer.PumpKind(indexOf(pumpKinds, pd.str["pump.kind"]))
+	if kind == transfer.Anisotropic && pd.species.IsTable() {
+		return nil, ps.err("pump.kind", `"isotropic", "hyperfine"`, "anisotropic pumping weights states by <m_J^2>, which species %s, given as a component table, does not define: use its Hamiltonian form", pd.species.Name)
+	}
 	width := len(strconv.Itoa(total - 1))
 	if width < 4 {
 		width = 4

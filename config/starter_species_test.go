@@ -51,3 +51,22 @@ func TestStarterFromSpeciesTypical(t *testing.T) {
 		}
 	}
 }
+
+func TestAnisotropicPumpNeedsHamiltonian(t *testing.T) {
+	dir := t.TempDir()
+	src, err := os.ReadFile(filepath.Join("..", "testdata", "species", "oh-ground-table.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(dir, "oh.toml"), src, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	cfg := filepath.Join(dir, "c.toml")
+	if err := os.WriteFile(cfg, []byte("species = \"oh.toml\"\n[field]\nstrength = \"3 mG\"\n[pump]\nkind = \"anisotropic\"\nalignment = 0.3\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	_, err = Load(cfg)
+	if err == nil || !strings.Contains(err.Error(), "key pump.kind") || !strings.Contains(err.Error(), "Hamiltonian form") {
+		t.Errorf("anisotropic pump on a component table: %v", err)
+	}
+}
