@@ -574,6 +574,9 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 	if kind != transfer.Hyperfine && (pd.given["pump.upper_f"] || pd.given["pump.lower_f"]) {
 		warn(`pump.upper_f and pump.lower_f are used only with pump.kind = "hyperfine"; ignored`)
 	}
+	if w := tableWarning(st); w != "" {
+		st.Warnings = append(st.Warnings, w)
+	}
 	st.Resolved = ps.resolved(pd, specs)
 	sum := sha256.Sum256(st.Resolved)
 	st.Hash = hex.EncodeToString(sum[:])

@@ -2,6 +2,7 @@ package config
 
 import (
 	"fmt"
+	"math"
 	"strings"
 
 	"maserpol/levels"
@@ -184,4 +185,39 @@ func (ps *parser) reference(pd *parsed) *Error {
 	}
 	pd.species = pd.species.Referenced(cs[i].Offset)
 	return nil
+}
+
+// tableWarning states the validity of a component-table species in a
+// study: without mixing between F levels, V misses a part shaped like I of
+// relative size about (Doppler width / smallest hyperfine gap) against the
+// Zeeman V (levels/species TestTableEqualsHamiltonian), and hyperfine
+// decoupling is absent. "" for a Hamiltonian species.
+func tableWarning(st *Study) string {
+	if len(st.Models) == 0 {
+		return ""
+	}
+	sp := st.Models[0].Params.Species
+	if sp == nil || !sp.IsTable() {
+		return ""
+	}
+	gap := math.Inf(1)
+	for _, lv := range []levels.Level{sp.Upper, sp.Lower} {
+		for i, a := range lv.Table {
+			for _, b := range lv.Table[i+1:] {
+				if d := math.Abs(a.Energy - b.Energy); d > 0 {
+					gap = math.Min(gap, d)
+				}
+			}
+		}
+	}
+	vd := 0.0
+	for _, m := range st.Models {
+		vd = math.Max(vd, m.Params.Doppler)
+	}
+	if math.IsInf(gap, 1) || !(vd > 0) {
+		return ""
+	}
+	r := vd / levels.SpeedOfLight * sp.Frequency / gap
+	return fmt.Sprintf("species %q is a component table (no mixing between F levels): Stokes V leaves out a part of relative size about Doppler width / smallest hyperfine gap = %.2g (%.3g kHz / %.3g kHz), and hyperfine decoupling; use the Hamiltonian form where that matters",
+		sp.Name, r, vd/levels.SpeedOfLight*sp.Frequency/1e3, gap/1e3)
 }

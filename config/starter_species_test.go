@@ -40,6 +40,16 @@ func TestStarterFromSpeciesTypical(t *testing.T) {
 		if n := len(st.Models); n != 1 {
 			t.Errorf("%s: %d models", f, n)
 		}
+		// The table form states its validity; the Hamiltonian form has no
+		// such limit.
+		isTable := strings.Contains(f, "table")
+		warned := false
+		for _, w := range st.Warnings {
+			warned = warned || strings.Contains(w, "no mixing between F levels")
+		}
+		if warned != isTable {
+			t.Errorf("%s: table-form warning %v, want %v (%q)", f, warned, isTable, st.Warnings)
+		}
 		// The resolved config carries the species inline (the table as a
 		// string) and gives the same model.
 		st2, err := Parse(st.Resolved, filepath.Join(t.TempDir(), "config.toml"))
