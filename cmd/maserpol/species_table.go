@@ -13,6 +13,9 @@ import (
 // form (levels.TableRows): the weak-field table of a Hamiltonian species,
 // to compare with a published one or to edit.
 func writeComponentTable(w io.Writer, sp *levels.Species, name string) error {
+	if len(sp.Upper.Spins) > 2 {
+		return fmt.Errorf("%d spins: F1 and F do not name every hyperfine level, so the species has no component-table form", len(sp.Upper.Spins))
+	}
 	rows, err := levels.TableRows(sp, 1e-6)
 	if err != nil {
 		return err
