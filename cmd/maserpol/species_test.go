@@ -8,6 +8,7 @@ import (
 	"strings"
 	"testing"
 
+	"maserpol/levels"
 	"maserpol/levels/species"
 	"maserpol/runs"
 )
@@ -78,5 +79,41 @@ func TestZeemanFactorEach(t *testing.T) {
 	}
 	if n := strings.Count(errs, "not checked against a source"); n != 1 {
 		t.Errorf("unverified warning printed %d times, want once:\n%s", n, errs)
+	}
+}
+
+// levels --format components writes a species file that parses back to
+// the same components (offsets to the printed 1 Hz, strengths 1e-8).
+func TestLevelsComponentsFormat(t *testing.T) {
+	for _, name := range []string{"hcn-like-j1-0", "synthetic-j6-5"} {
+		code, out, errs := runCmd(cmdLevels, name, "--format", "components")
+		if code != exitOK {
+			t.Fatalf("%s: exit %d: %s", name, code, errs)
+		}
+		tab, err := species.Parse([]byte(out), name+" table")
+		if err != nil {
+			t.Fatalf("%s: %v\n%s", name, err, out)
+		}
+		ham, _ := species.Preset(name)
+		all, _ := levels.Components(ham)
+		var ch []levels.Component // the written table leaves out strengths below 1e-6
+		for _, c := range all {
+			if c.Strength >= 1e-6 {
+				ch = append(ch, c)
+			}
+		}
+		ct, err := levels.Components(tab)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(ct) != len(ch) {
+			t.Fatalf("%s: %d components, want %d", name, len(ct), len(ch))
+		}
+		for i := range ch {
+			// Strengths renormalize by the left-out ones (< 1e-6 in all).
+			if math.Abs(ch[i].Offset-ct[i].Offset) > 1 || math.Abs(ch[i].Strength-ct[i].Strength) > 3e-6*ch[i].Strength+2e-8 {
+				t.Errorf("%s: component %d: %+v vs %+v", name, i, ct[i], ch[i])
+			}
+		}
 	}
 }
