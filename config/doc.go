@@ -85,13 +85,15 @@
 //	line.turbulence                km/s     "0 km/s"       0 .. 100 km/s, with temperature only, sweep     turb_kms
 //	line.channels                  -        512            16 .. 65536, integer, sweep                     channels
 //	line.span                      km/s     "0 km/s"       0 .. 10000 km/s, total span; 0 = automatic, sweep span_kms
+//	line.reference                 -        -              component index or label ("1-1", "13/2,7-15/2,8"): velocity 0 at its rest frequency  -
 //	rates.gamma_upper              s^-1     "1 s^-1"       > 0 .. 1e9 s^-1, sweep                          gamma_upper_per_s
 //	rates.gamma_lower              s^-1     "1 s^-1"       > 0 .. 1e9 s^-1, sweep                          gamma_lower_per_s
 //	beam.solid_angle               sr       "0.01 sr"      > 0 .. 4 pi sr, beaming dOmega, sweep           dOmega_sr
 //	pump.kind                      -        "isotropic"    "isotropic", "anisotropic", "hyperfine"          -
 //	pump.alignment                 -        0.0            -1 .. 1, signed anisotropy (anisotropic), sweep alignment
 //	pump.lower_ratio               -        0.0            0 .. < gamma_lower/gamma_upper, lower/upper pump rate, sweep lower_ratio
-//	pump.upper_f                   -        all 1          { "F" = weight >= 0 } (hyperfine); F as "2", "1.5" or "3/2"  -
+//	pump.component                 -        -              index or label "Fu-Fl", "F1u,Fu-F1l,Fl" (hyperfine): pump only its upper level, sweep component
+//	pump.upper_f                   -        all 1          { "F" = weight >= 0 } or { "F1,F" = weight } (hyperfine); F as "2", "1.5" or "3/2"  -
 //	pump.lower_f                   -        all 1          as upper_f, for the lower level                  -
 //	seed.tb                        K        "2.725 K"      > 0 K, seed brightness temperature, sweep       tb_K
 //	seed.linear                    -        0.0            0 .. 1, linear fraction, sweep                  seed_linear
@@ -130,8 +132,11 @@
 // self-contained; an inline [species] table is kept as a table. Parsing
 // Resolved gives the same models, and its own Resolved is byte-identical.
 //
-// Pump weights (pump.upper_f, pump.lower_f) must name F labels the level
-// has: the zero-field multiplets of its hyperfine structure.
+// Pump weights (pump.upper_f, pump.lower_f) must name F labels (or F1,F
+// pairs) the level has: the zero-field multiplets of its hyperfine
+// structure. pump.component names a component as levels.SelectComponent
+// reads it; labels become indices in the resolved config, so a list of them
+// sweeps like any integer key.
 //
 // Starter and StarterNamed write a commented starter configuration, every
 // key with its unit, default and allowed range, named after the file

@@ -92,7 +92,12 @@ type parsed struct {
 	bools   map[string]bool
 	strs    map[string][]string
 	weights map[string]map[float64]float64
-	rawOf   map[string]any // written or default value of every non-numeric key
+	// levelWeights are the pump weights given by {F1, F} ("13/2,7" keys).
+	levelWeights map[string]map[[2]float64]float64
+	rawOf        map[string]any // written or default value of every non-numeric key
+	// comps are the zero-field components of the species, for
+	// pump.component (computed once, when that key is given).
+	comps []levels.Component
 
 	species     *levels.Species
 	speciesText string // as written, for Model.Species
@@ -124,7 +129,7 @@ func (ps *parser) parse(data []byte) (*Study, *Error) {
 	}
 	pd := &parsed{raw: raw, given: map[string]bool{}, byPath: map[string]*param{},
 		str: map[string]string{}, bools: map[string]bool{}, strs: map[string][]string{},
-		weights: map[string]map[float64]float64{}, rawOf: map[string]any{}}
+		weights: map[string]map[float64]float64{}, levelWeights: map[string]map[[2]float64]float64{}, rawOf: map[string]any{}}
 	specs := schema()
 	if err := ps.structure(raw, specs, pd); err != nil {
 		return nil, err
@@ -132,15 +137,23 @@ func (ps *parser) parse(data []byte) (*Study, *Error) {
 	if err := ps.conflicts(pd); err != nil {
 		return nil, err
 	}
+	if err := ps.componentLabels(pd); err != nil {
+		return nil, err
+	}
 	for _, s := range specs {
 		if err := ps.key(s, pd); err != nil {
 			return nil, err
 		}
 	}
-	if err := ps.resolveSpecies(pd); err != nil {
-		return nil, err
+	if pd.species == nil {
+		if err := ps.resolveSpecies(pd); err != nil {
+			return nil, err
+		}
 	}
 	if err := ps.checkFLabels(pd); err != nil {
+		return nil, err
+	}
+	if err := ps.reference(pd); err != nil {
 		return nil, err
 	}
 	return ps.expand(pd, specs)
@@ -289,10 +302,11 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 			return ps.err(path, s.allowed(), "expected a table, got %s", tomlType(v))
 		}
 		w := map[float64]float64{}
+		lw := map[[2]float64]float64{}
 		for _, k := range sortedKeys(t) {
-			f, err := parseF(k)
+			f1, f, err := parseLevelKey(k)
 			if err != nil {
-				return ps.err(path+"."+k, "F labels like \"1\", \"2.5\" or \"5/2\" (non-negative multiples of 1/2)", "bad F label %q", k)
+				return ps.err(path+"."+k, "F labels like \"1\", \"2.5\" or \"5/2\", or F1 and F like \"13/2,7\" (non-negative multiples of 1/2)", "bad F label %q", k)
 			}
 			var x float64
 			switch y := t[k].(type) {
@@ -306,12 +320,22 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 			if !(x >= 0) || math.IsInf(x, 0) {
 				return ps.err(path+"."+k, "a number >= 0", "negative or non-finite weight %v", x)
 			}
+			if f1 >= 0 {
+				if _, dup := lw[[2]float64{f1, f}]; dup {
+					return ps.err(path+"."+k, "each level once", "level %s given twice", k)
+				}
+				lw[[2]float64{f1, f}] = x
+				continue
+			}
 			if _, dup := w[f]; dup {
 				return ps.err(path+"."+k, "each F once", "F = %s given twice", k)
 			}
 			w[f] = x
 		}
 		pd.weights[path] = w
+		if len(lw) > 0 {
+			pd.levelWeights[path] = lw
+		}
 	}
 	return nil
 }
@@ -324,8 +348,11 @@ func (ps *parser) checkFLabels(pd *parsed) *Error {
 		level levels.Level
 	}{{"pump.upper_f", pd.species.Upper}, {"pump.lower_f", pd.species.Lower}} {
 		w := pd.weights[lv.path]
-		if len(w) == 0 {
+		if len(w) == 0 && len(pd.levelWeights[lv.path]) == 0 {
 			continue
+		}
+		if err := ps.checkLevelKeys(pd, lv.path, lv.level); err != nil {
+			return err
 		}
 		fs, err := fLabels(lv.level)
 		if err != nil {
@@ -340,9 +367,9 @@ func (ps *parser) checkFLabels(pd *parsed) *Error {
 		t, _ := lookupRaw(pd.raw, &spec{table: "pump", name: strings.TrimPrefix(lv.path, "pump.")})
 		tbl, _ := t.(map[string]any)
 		for _, k := range sortedKeys(tbl) {
-			f, _ := parseF(k)
-			if have[f] {
-				continue
+			f1, f, _ := parseLevelKey(k)
+			if f1 >= 0 || have[f] {
+				continue // {F1, F} keys: checkLevelKeys
 			}
 			key := lv.path + "." + k
 			e := ps.err(key, "the F labels of this level: "+strings.Join(names, ", "),
@@ -443,8 +470,8 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			Formats: pd.strs["output.formats"],
 		},
 	}
-	if pd.species.Unverified {
-		st.Warnings = append(st.Warnings, fmt.Sprintf("species %s has constants that are not checked against a source (see its notes)", pd.species.Name))
+	if w := pd.species.UnverifiedWarning(); w != "" {
+		st.Warnings = append(st.Warnings, w)
 	}
 
 	// Columns beyond the three always reported.
@@ -467,6 +494,9 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 	}
 
 	kind := transfer.PumpKind(indexOf(pumpKinds, pd.str["pump.kind"]))
+	if kind == transfer.Anisotropic && pd.species.IsTable() {
+		return nil, ps.err("pump.kind", `"isotropic", "hyperfine"`, "anisotropic pumping weights states by <m_J^2>, which species %s, given as a component table, does not define: use its Hamiltonian form", pd.species.Name)
+	}
 	width := len(strconv.Itoa(total - 1))
 	if width < 4 {
 		width = 4
@@ -501,11 +531,17 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 		}
 		par := &m.Params
 		par.Species = pd.species
-		par.Pump = transfer.Pump{Kind: kind, UpperF: pd.weights["pump.upper_f"], LowerF: pd.weights["pump.lower_f"]}
+		par.Pump = transfer.Pump{Kind: kind, UpperF: pd.weights["pump.upper_f"], LowerF: pd.weights["pump.lower_f"],
+			UpperLevels: pd.levelWeights["pump.upper_f"], LowerLevels: pd.levelWeights["pump.lower_f"]}
 		par.Population = transfer.PopulationModel(indexOf(populationModels, pd.str["populations.model"]))
 		for _, s := range specs {
 			if x, ok := vals[s.path()]; ok && s.set != nil {
 				s.set(par, x)
+			}
+		}
+		if x, ok := vals["pump.component"]; ok {
+			if err := ps.pumpComponent(pd, par, int(x), kind); err != nil {
+				return nil, err
 			}
 		}
 		if par.Gain > 0 {
@@ -538,6 +574,9 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 	}
 	if kind != transfer.Hyperfine && (pd.given["pump.upper_f"] || pd.given["pump.lower_f"]) {
 		warn(`pump.upper_f and pump.lower_f are used only with pump.kind = "hyperfine"; ignored`)
+	}
+	if w := tableWarning(st); w != "" {
+		st.Warnings = append(st.Warnings, w)
 	}
 	st.Resolved = ps.resolved(pd, specs)
 	sum := sha256.Sum256(st.Resolved)

@@ -61,7 +61,7 @@ func (s *spec) allowed() string {
 	case tString:
 		return "a string"
 	case tWeights:
-		return `a table of F label = weight >= 0, e.g. { "1" = 1.0, "2" = 0.5 }`
+		return `a table of F label (or "F1,F") = weight >= 0, e.g. { "1" = 1.0, "2" = 0.5 } or { "13/2,7" = 2.0 }`
 	}
 	f := func(x float64) string {
 		if s.typ == tQuantity {
@@ -175,6 +175,7 @@ func schema() []*spec {
 		{table: "line", name: "span", typ: tQuantity, kind: units.Velocity, unit: "km/s", column: "span_kms",
 			def: `"0 km/s"`, min: 0, max: 1e7, doc: "total velocity span of the channels; 0 = automatic",
 			set: func(p *transfer.Params, x float64) { p.Span = x }},
+		{table: "line", name: "reference", typ: tString, example: `"0"`, doc: "hyperfine component whose rest frequency is velocity 0 and the centre of a given span (index or label as maserpol levels lists them); default: the unsplit line"},
 
 		{table: "rates", name: "gamma_upper", typ: tQuantity, kind: units.Rate, plain: "s^-1", unit: "s^-1", column: "gamma_upper_per_s",
 			def: rateDefault, min: 0, minOpen: true, max: 1e9, doc: "decay rate of the upper eigenstates",
@@ -194,6 +195,8 @@ func schema() []*spec {
 		{table: "pump", name: "lower_ratio", typ: tNumber, column: "lower_ratio",
 			def: "0.0", min: 0, max: 1e6, doc: "pump rate into each lower sublevel relative to each upper one (< gamma_lower/gamma_upper)",
 			set: func(p *transfer.Params, x float64) { p.Pump.LowerPump = x }},
+		{table: "pump", name: "component", typ: tInt, column: "component", example: "0",
+			min: 0, max: 100000, doc: "pump only the upper hyperfine level of this component (kind = \"hyperfine\"): an index as listed by maserpol levels, or a label \"Fu-Fl\" or \"F1u,Fu-F1l,Fl\"; a list compares components"},
 		{table: "pump", name: "upper_f", typ: tWeights, example: `{ "1" = 1.0, "2" = 0.5 }`, doc: "relative pump weights of upper F labels for kind = \"hyperfine\" (missing: 1)"},
 		{table: "pump", name: "lower_f", typ: tWeights, example: `{ "1" = 1.0 }`, doc: "relative pump weights of lower F labels for kind = \"hyperfine\" (missing: 1)"},
 

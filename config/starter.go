@@ -22,6 +22,8 @@ var commented = map[string]bool{
 	"line.temperature": true,
 	"line.turbulence":  true,
 	"column.gain":      true,
+	"pump.component":   true,
+	"line.reference":   true,
 	"pump.upper_f":     true,
 	"pump.lower_f":     true,
 }
@@ -91,6 +93,9 @@ func StarterNamed(speciesName, name string) (string, error) {
 			val = tomlString(sv.doppler)
 		case "field.theta":
 			val = tomlString(starterTheta)
+			if sv.theta != "" {
+				val = tomlString(sv.theta)
+			}
 		case "field.chi":
 			val = tomlString(starterChi)
 		case "line.channels":
@@ -119,7 +124,9 @@ func StarterNamed(speciesName, name string) (string, error) {
 			fmt.Fprintf(&b, "# %s.\n", strings.Join(notes, ". "))
 		}
 		prefix := ""
-		if commented[s.path()] {
+		if s.path() == "line.reference" && sv.reference != "" {
+			val = tomlString(sv.reference)
+		} else if commented[s.path()] {
 			prefix = "# "
 		}
 		fmt.Fprintf(&b, "%s%s = %s\n", prefix, s.name, val)
@@ -151,6 +158,8 @@ func upperFirst(s string) string {
 // starter holds the species-dependent values of a starter config.
 type starter struct {
 	field, doppler, span string
+	theta                string // "" = the schema's example
+	reference            string // line.reference, "" = the unsplit line (commented)
 	channels             int
 	saturation           float64
 	notes                []string // comment lines explaining the choice
@@ -219,10 +228,40 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 	if t.doppler != "" {
 		sv.doppler = t.doppler
 	}
+	// A species file may carry its own typical conditions ([typical]);
+	// the starter then also ends the run where the populations-only model
+	// stops holding at that field, so that it covers the whole run.
+	fromSpecies := t.field == "" && sp.Typical.Field > 0
+	if fromSpecies {
+		t.field = fieldText(sp.Typical.Field)
+	}
+	if t.doppler == "" && sp.Typical.Doppler > 0 {
+		sv.doppler = strconv.FormatFloat(units.In(sp.Typical.Doppler, units.Velocity, "km/s"), 'g', 3, 64) + " km/s"
+	}
+	if sp.Typical.Theta > 0 {
+		sv.theta = strconv.FormatFloat(units.In(sp.Typical.Theta, units.Angle, "deg"), 'g', 4, 64) + " deg"
+	}
 	vd, _ := units.Parse(sv.doppler, units.Velocity)
-	strongest := 0.0
+	strongest, si := 0.0, 0
+	for i, c := range comps {
+		if c.Strength > strongest {
+			strongest, si = c.Strength, i
+		}
+	}
+	// Lines too far apart for one fine channel grid (OH's 1612-1720 MHz):
+	// measure velocities from the strongest line and centre the span on it.
+	vlo, vhi := math.Inf(1), math.Inf(-1)
 	for _, c := range comps {
-		strongest = math.Max(strongest, c.Strength)
+		v := -levels.SpeedOfLight * c.Offset / sp.Frequency
+		vlo, vhi = math.Min(vlo, v), math.Max(vhi, v)
+	}
+	if starterPerDoppler*(vhi-vlo+8*vd)/vd > maxStarterChannels {
+		sv.reference = levels.ComponentLabels(comps)[si]
+		sp = sp.Referenced(comps[si].Offset)
+		if comps, err = levels.Components(sp); err != nil {
+			return nil, err
+		}
+		sv.notes = append(sv.notes, fmt.Sprintf("Velocity 0: the strongest line, component %s at %.6g MHz (line.reference); the span holds it alone; the other lines fall outside it and are left out of the model (transfer says how many). Model another line by setting line.reference to it.", sv.reference, sp.Frequency/1e6))
 	}
 	maxShift := 0.0 // largest weak-field shift of the strong components, m/s per G
 	for _, c := range comps {
@@ -275,10 +314,16 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 		width = hi - lo + 8*vd // transfer's automatic span: 4 Doppler widths beyond the lines
 		if starterPerDoppler*width/vd > maxStarterChannels {
 			mid := (lo + hi) / 2
+			if sp.ReferenceShift != 0 {
+				mid = 0 // transfer centres a given span on the reference line
+			}
 			half := 0.0
 			for _, cp := range comps {
-				if cp.Strength >= 0.2*strongest {
-					v := -c * cp.Offset / sp.Frequency
+				v := -c * cp.Offset / sp.Frequency
+				// With a reference line, the span holds it and its
+				// near neighbours only: the other lines are analysed
+				// with their own line.reference.
+				if cp.Strength >= 0.2*strongest && (sp.ReferenceShift == 0 || math.Abs(v) < 20*vd) {
 					half = math.Max(half, math.Abs(v-mid)+b*maxShift)
 				}
 			}
@@ -303,7 +348,11 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 	switch {
 	case t.field != "":
 		b, _ = units.Parse(t.field, units.Field)
-		sv.notes = append(sv.notes, "Field and line width: values typical of observed masers of this line (common practice).")
+		if fromSpecies {
+			sv.notes = append(sv.notes, "Field, line width and angle: the typical values of the species file ([typical]).")
+		} else {
+			sv.notes = append(sv.notes, "Field and line width: values typical of observed masers of this line (common practice).")
+		}
 	case sp.Magneton == levels.Bohr:
 		b = nearestNice(3 * vd / maxShift)
 		sv.notes = append(sv.notes, fmt.Sprintf("Field: largest Zeeman shift %.2g km/s, about 3 Doppler widths (resolved Zeeman pairs).", b*maxShift/1e3))
@@ -342,7 +391,9 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 	sv.span = "0 km/s"
 	if span > 0 {
 		sv.span = units.Format(span, units.Velocity, "km/s")
-		sv.notes = append(sv.notes, "Span: the strong components only; weaker lines outside it are ignored (transfer warns).")
+		if sv.reference == "" {
+			sv.notes = append(sv.notes, "Span: the strong components only; weaker lines outside it are ignored (transfer warns).")
+		}
 	}
 	if per := float64(n-1) * vd / width; per < 4 {
 		sv.notes = append(sv.notes, fmt.Sprintf("Channels: only %.2g per Doppler width; more resolve the line better.", per))
@@ -357,6 +408,9 @@ func starterValues(sp *levels.Species, name string) (*starter, error) {
 		satValid := validLimit * g / gamma
 		first := transfer.DefaultFirstCheckpoint
 		switch {
+		case fromSpecies && satValid < sv.saturation && satValid > 10*first:
+			sv.saturation = niceBelow(satValid)
+			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega <= 0.1 up to saturation R/Gamma = %.2g at this field; the run ends at %g, inside it.", satValid, sv.saturation))
 		case satValid >= sv.saturation:
 			sv.notes = append(sv.notes, fmt.Sprintf("Validity: R/gOmega = %.2g at the final saturation %g: the populations-only model holds over the whole run.", rEnd/g, sv.saturation))
 		case math.Log(satValid/first) >= 0.5*math.Log(sv.saturation/first):

@@ -60,7 +60,7 @@ func Components(sp *Species) ([]Component, error) {
 			index[key] = ci
 			comps = append(comps, Component{
 				Fu: u.F, Fl: l.F, F1u: u.F1, F1l: l.F1,
-				Offset: mu[u.Multiplet].Energy - ml[l.Multiplet].Energy,
+				Offset: mu[u.Multiplet].Energy - ml[l.Multiplet].Energy - sp.ReferenceShift,
 			})
 			accs = append(accs, acc{})
 		}
@@ -122,7 +122,7 @@ func linearUpTo(ts *TransitionSolver, comps []Component, index []int, nml int) {
 			if ci < 0 || done[ci] {
 				continue
 			}
-			shift := ln.Offset - (mu[u.Multiplet].Energy - ml[l.Multiplet].Energy)
+			shift := ln.Offset + ts.sp.ReferenceShift - (mu[u.Multiplet].Energy - ml[l.Multiplet].Energy)
 			s[ci][ln.Q+1] += ln.Strength
 			sum[ci][ln.Q+1] += ln.Strength * shift
 		}

@@ -77,6 +77,26 @@
 // at higher frequency) and LinearUpTo, the field at which that splitting
 // departs from linear by 1 % (+Inf above the 1e6 G scan limit).
 //
+// # Component-table form
+//
+// A level with a Table (table.go) is a list of zero-field F levels, each
+// with an energy and a g_F, instead of a Hamiltonian: basis |F_k M>, states
+// E_k + s mu g_F M B (linear at every field, no mixing between F levels).
+// Dipoles are (-1)^(F_u-M_u) (F_u 1 F_l; -M_u q M_l) sqrt((2F_u+1) b) with b
+// the component's branching ratio from its upper F level (Species.
+// TableLines), which keeps the per-upper-state sum rule. TableFromComponents
+// builds such a species from the rows of a published table; TableRows
+// writes a Hamiltonian species as one. Everything else (Solve, Components,
+// labels, Multiplets) works alike; MJ2 is M^2 there (no J is known).
+//
+// # Components by name and velocity reference
+//
+// ComponentLabels names components "Fu-Fl" or, with two spins,
+// "F1u,Fu-F1l,Fl"; SelectComponent resolves an index or a label and
+// refuses an ambiguous one, listing the candidates. Species.Referenced
+// moves Frequency to one component's rest frequency (ReferenceShift), so
+// that line and component offsets, and velocities, are measured from it.
+//
 // # Use
 //
 //	sp, _ := species.Preset("h2o-22")        // maserpol/levels/species

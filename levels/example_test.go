@@ -47,9 +47,9 @@ func ExampleComponents() {
 			c.Fu, c.Fl, c.Offset/1e6, c.Strength, c.SplitHzPerG)
 	}
 	// Output:
-	// F=1-1   -1.1775 MHz  strength 0.3333  split -212.2 Hz/G
-	// F=2-1   +0.2355 MHz  strength 0.5556  split -20.9 Hz/G
-	// F=0-1   +2.3550 MHz  strength 0.1111  split -307.8 Hz/G
+	// F=1-1   -1.1865 MHz  strength 0.3333  split -212.2 Hz/G
+	// F=2-1   +0.2451 MHz  strength 0.5556  split -20.9 Hz/G
+	// F=0-1   +2.3338 MHz  strength 0.1111  split -307.8 Hz/G
 }
 
 // Solving one level at many fields with a reusable Solver. Nuclear magneton,

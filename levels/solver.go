@@ -67,6 +67,9 @@ func NewSolver(l Level) (*Solver, error) {
 	if err := l.Validate(); err != nil {
 		return nil, err
 	}
+	if len(l.Table) > 0 {
+		return newTableSolver(l)
+	}
 	s := &Solver{level: l}
 	ns := 1 + len(l.Spins)
 	s.tj = make([]int, ns)

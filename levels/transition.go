@@ -44,6 +44,12 @@ func NewTransitionSolver(sp *Species) (*TransitionSolver, error) {
 		return nil, fmt.Errorf("%s: lower level: %w", sp.Name, err)
 	}
 	t := &TransitionSolver{sp: sp, up: up, lo: lo, norm: 2*sp.Upper.J + 1}
+	if sp.IsTable() {
+		// The reduced elements of table.go carry the normalization.
+		t.norm = 1
+		t.tablePairs()
+		return t, nil
+	}
 	tju, tjl := up.tj[0], lo.tj[0]
 	// Lower-block lookup by twice M.
 	lbOf := map[int]int{}
@@ -145,7 +151,7 @@ func (t *TransitionSolver) Solve(field float64, dst *Transition) error {
 					Upper:     ub.start + a,
 					Lower:     lb.start + b,
 					Q:         p.q,
-					Offset:    ub.outE[a] - lb.outE[b],
+					Offset:    ub.outE[a] - lb.outE[b] - t.sp.ReferenceShift,
 					Strength:  s,
 					Amplitude: sqrtNorm * v,
 				})

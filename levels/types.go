@@ -51,6 +51,28 @@ type Level struct {
 	Magneton  Magneton
 	Spins     []Spin
 	Couplings []Coupling
+	// Table, when not empty, defines the level by its zero-field hyperfine
+	// levels instead of a Hamiltonian (the component-table form, table.go):
+	// each F level splits linearly in the field with its own g_F, and F
+	// levels do not mix. J and Spins are then descriptive only, G and
+	// Couplings unused.
+	Table []FLevel
+}
+
+// FLevel is one zero-field hyperfine level of a component-table level.
+type FLevel struct {
+	F, F1  float64 // F1 equals F for fewer than two spins
+	Energy float64 // zero-field E/h, Hz, relative to the unsplit level
+	G      float64 // g_F in units of the species magneton (sign as for g_J, doc.go)
+}
+
+// TableLine is one hyperfine component of a component-table species: the
+// dipole between F levels Upper.Table[Upper] and Lower.Table[Lower].
+type TableLine struct {
+	Upper, Lower int
+	// Branching is the fraction of the decay of the upper F level that goes
+	// through this component (the components of each upper F level sum to 1).
+	Branching float64
 }
 
 // BasisState is one vector of the uncoupled product basis |J mJ>|I1 m1>...|Ik mk>.
@@ -99,8 +121,23 @@ type Species struct {
 	// Unverified is true when some constant comes from memory or is
 	// otherwise not checked against a source; users get a warning.
 	Unverified bool
+	// UnverifiedValues names the values that are not checked (e.g.
+	// "rotational g"); it may be empty when Unverified is set without
+	// naming them. UnverifiedWarning turns it into the user's warning.
+	UnverifiedValues []string
 	// Notes carry the source of each constant, as written in the species file.
 	Notes []string
+	// ReferenceShift (Hz) is how far Frequency was moved from the unsplit
+	// line to a chosen hyperfine component (Referenced), so that velocities
+	// are measured from that component; line and component offsets stay
+	// relative to Frequency. Level energies are not affected.
+	ReferenceShift float64
+	// Typical holds conditions typical of observed masers of this line,
+	// which starter configs use; zero values are not given.
+	Typical Typical
+	// TableLines are the components of a component-table species (both
+	// levels with a Table); nil for the Hamiltonian form.
+	TableLines []TableLine
 }
 
 // Line is one allowed dipole component between an upper eigenstate and a
@@ -148,4 +185,11 @@ type Component struct {
 	// LinearUpTo is the field (gauss) below which the component's shifts stay
 	// linear in B within 1 % (the onset of hyperfine decoupling).
 	LinearUpTo float64
+}
+
+// Typical is a set of conditions typical of observed masers of a line.
+type Typical struct {
+	Field   float64 // gauss
+	Doppler float64 // 1/e half-width of the velocity distribution, m/s
+	Theta   float64 // angle of the field to the line of sight, rad
 }

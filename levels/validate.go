@@ -20,6 +20,9 @@ func (l Level) Validate() error {
 	if l.Magneton != Nuclear && l.Magneton != Bohr {
 		return fmt.Errorf("levels: unknown magneton %d", int(l.Magneton))
 	}
+	if len(l.Table) > 0 && len(l.Couplings) > 0 {
+		return fmt.Errorf("levels: a level defined by a component table has no couplings")
+	}
 	for i, s := range l.Spins {
 		if !isHalfInt(s.I) {
 			return fmt.Errorf("levels: spin %d (%q): I = %g must be a non-negative multiple of 1/2", i, s.Name, s.I)
@@ -76,6 +79,9 @@ func (sp *Species) Validate() error {
 	if sp == nil {
 		return fmt.Errorf("levels: nil species")
 	}
+	if sp.IsTable() {
+		return sp.validateTable()
+	}
 	if err := sp.Upper.Validate(); err != nil {
 		return fmt.Errorf("%s: upper level: %w", sp.Name, err)
 	}
@@ -99,4 +105,10 @@ func (sp *Species) Validate() error {
 		return fmt.Errorf("%s: no electric-dipole transition between J = %g and J = %g (needs |J_u - J_l| <= 1, integer, and not 0 -> 0)", sp.Name, ju, jl)
 	}
 	return nil
+}
+
+// IsTable reports whether the species is in the component-table form
+// (table.go) rather than defined by level Hamiltonians.
+func (sp *Species) IsTable() bool {
+	return len(sp.Upper.Table) > 0 || len(sp.Lower.Table) > 0 || len(sp.TableLines) > 0
 }

@@ -222,10 +222,36 @@ func (m *Model) setupGrid() error {
 		lo, hi = vmin-spanDopplers*vd, vmax+spanDopplers*vd
 	} else {
 		mid := (vmin + vmax) / 2
+		if sp.ReferenceShift != 0 {
+			mid = 0 // velocities are measured from a chosen line: centre on it
+		}
 		lo, hi = mid-p.Span/2, mid+p.Span/2
-		if vmin-2*vd < lo || vmax+2*vd > hi {
-			m.warnf("channel span %.4g km/s does not cover the lines (%.4g to %.4g km/s) plus 2 Doppler widths: emission outside the grid is lost",
-				p.Span/1e3, vmin/1e3, vmax/1e3)
+		// A line the span cuts through would lose part of its emission:
+		// widen the span to hold it whole. Lines wholly outside stay out
+		// (no channel sees them; warned below).
+		cut := 0
+		for _, l := range m.lines {
+			vl := -c * l.offset / nu0
+			if vl+2*vd >= lo && vl-2*vd <= hi && (vl-2*vd < lo || vl+2*vd > hi) {
+				cut++
+				lo, hi = math.Min(lo, vl-spanDopplers*vd), math.Max(hi, vl+spanDopplers*vd)
+			}
+		}
+		if cut > 0 {
+			m.warnf("channel span %.4g km/s cut through %d line component(s): widened to %.4g km/s (%.4g to %.4g km/s) so that none is clipped",
+				p.Span/1e3, cut, (hi-lo)/1e3, lo/1e3, hi/1e3)
+		}
+		// Lines outside the span that the kernel setup below keeps (those
+		// farther away it drops and names itself).
+		far, dv := 0, (hi-lo)/float64(m.n-1)
+		for _, l := range m.lines {
+			vl := -c * l.offset / nu0
+			if (vl+2*vd < lo || vl-2*vd > hi) && math.Abs(vl)/dv <= float64(m.n+1) {
+				far++
+			}
+		}
+		if far > 0 {
+			m.warnf("%d line component(s) lie outside the channel span (%.4g to %.4g km/s): no radiation reaches them, so they do not mase in this model; widen line.span to include them", far, lo/1e3, hi/1e3)
 		}
 	}
 	m.dv = (hi - lo) / float64(m.n-1)
@@ -311,11 +337,11 @@ func (m *Model) setupPopulations() error {
 	// two-level line saturates as 1/(1 + 2R/Gamma) for any Gamma_u, Gamma_l.
 	m.gamma = 2 * p.GammaUpper * p.GammaLower / (p.GammaUpper + p.GammaLower)
 	gU, gL := p.GammaUpper/m.gamma, p.GammaLower/m.gamma
-	wU, err := pumpWeights(p.Pump, m.tr.Upper, p.Pump.UpperF)
+	wU, err := levelPumpWeights(p.Pump, m.tr.Upper, true)
 	if err != nil {
 		return err
 	}
-	wL, err := pumpWeights(p.Pump, m.tr.Lower, p.Pump.LowerF)
+	wL, err := levelPumpWeights(p.Pump, m.tr.Lower, false)
 	if err != nil {
 		return err
 	}
@@ -363,8 +389,8 @@ func (m *Model) setupScales() error {
 		m.rhoV = 2 * FaradayCoefficient * p.ElectronDensity * 1e6 * bpar * lambda * lambda * p.GainLength
 	}
 	m.checkChannels(*p, sj, m.v[m.n-1]-m.v[0])
-	if sp.Unverified {
-		m.warnf("species %q has unverified constants", sp.Name)
+	if w := sp.UnverifiedWarning(); w != "" {
+		m.warnf("%s", w)
 	}
 
 	m.cur, m.mid, m.end = m.newState(), m.newState(), m.newState()

@@ -31,6 +31,18 @@ type Pump struct {
 	// Hyperfine (missing F labels get weight 1).
 	UpperF map[float64]float64
 	LowerF map[float64]float64
+	// UpperLevels and LowerLevels give relative pumping weights by
+	// zero-field hyperfine level, keyed by {F1, F} (F1 = F with fewer than
+	// two spins), for Hyperfine; a state they name takes this weight
+	// instead of its UpperF/LowerF one.
+	UpperLevels map[[2]float64]float64
+	LowerLevels map[[2]float64]float64
+	// OnlyNamed gives weight 0 instead of 1 to the upper states that
+	// neither UpperLevels nor UpperF names (Hyperfine): the pump then feeds
+	// only the named upper hyperfine levels, as when one component is
+	// pumped (which also inverts the other components from the same upper
+	// level; lower states keep the default weight 1).
+	OnlyNamed bool
 	// LowerPump is the pump rate into each lower sublevel relative to the
 	// pump rate into each upper sublevel (dimensionless, default 0). With
 	// equal decay rates only the difference matters; it must stay below

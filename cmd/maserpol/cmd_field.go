@@ -390,7 +390,7 @@ func printField(w io.Writer, name string, rows []interpret.FieldRow) {
 			fmt.Fprintf(w, " %d %s;", counts[v], v)
 		}
 	}
-	fmt.Fprintf(w, "\nValidity: the populations-only model holds where R/(g Omega) <= 0.1; detection: |A| >= 3 sigma_A; poor fit: chi-square probability < 0.001.\n")
+	fmt.Fprintf(w, "\nValidity: the V-to-field factor comes from models at B0 and holds for fields where R/(g Omega) <= 0.1, where V is linear in B (beyond, the Zeeman coherences make V non-linear in B: model the feature at its own field with the density matrix); detection: |A| >= 3 sigma_A; poor fit: chi-square probability < 0.001.\n")
 }
 
 // gaussPM writes a field and its error (gauss) in G or mG, one unit for both.

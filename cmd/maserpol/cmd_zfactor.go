@@ -19,14 +19,14 @@ import (
 )
 
 const (
-	zfactorArgs    = "SPECIES [--component blend|N|Fu-Fl] [--theta LIST] [--doppler V] [--saturation MAX] [--table FILE]"
+	zfactorArgs    = "SPECIES [--component blend|each|N|Fu-Fl|F1u,Fu-F1l,Fl] [--plot FILE] [--theta LIST] [--doppler V] [--saturation MAX] [--table FILE]"
 	zfactorSummary = "compute the factor that turns Stokes V into B cos(theta), against the linear-Zeeman estimate"
 )
 
 // cmdZeemanFactor is "maserpol zeeman-factor".
 func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("zeeman-factor", zfactorArgs, zfactorSummary, stderr)
-	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), an index as listed, or F labels \"2-1\"")
+	comp := fs.String("component", "blend", "hyperfine component: \"blend\" (whole line), \"each\" (every main component pumped alone, compared), an index as listed by maserpol levels, F labels \"2-1\", or F1 and F of both levels \"13/2,7-15/2,8\"")
 	thetas := fs.String("theta", "0,30,50,70,85 deg", "field angles to the line of sight, comma-separated with one unit (none: deg)")
 	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the velocity distribution, in km/s or with a unit")
 	fwhm := fs.String("fwhm", "", "FWHM of the velocity distribution, in km/s or with a unit (overrides --doppler)")
@@ -35,6 +35,7 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	b0 := fs.String("b0", "", "small model field in G (or with a unit), e.g. 2 (default: splitting = 1e-2 Doppler widths, inside the linear Zeeman range)")
 	workers := fs.Int("workers", runtime.NumCPU(), "models run in parallel")
 	tablePath := fs.String("table", "", "write the table to this file: .ecsv (with units) or .csv (plain)")
+	plotPath := fs.String("plot", "", "with --component each: draw the components' I and V into `FILE` (.png, .svg, .pdf, .eps; none: PNG and SVG)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -87,6 +88,12 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 		return report(stderr, usagef("--theta %q: %v", *thetas, interpret.ErrNoAngles))
 	}
 	spec.Thetas = th
+	if *comp == "each" {
+		return zfactorEach(ctx, spec, *workers, *tablePath, *plotPath, stdout, stderr)
+	}
+	if *plotPath != "" {
+		return report(stderr, usagef("--plot: only with --component each"))
+	}
 	if spec.Component, err = pickComponent(sp, *comp); err != nil {
 		return report(stderr, err)
 	}
@@ -143,8 +150,9 @@ func parseAngleList(s string) ([]float64, error) {
 	return out, nil
 }
 
-// pickComponent resolves --component: "blend", an index into
-// levels.Components, or "Fu-Fl" labels.
+// pickComponent resolves --component: "blend", or a component as
+// levels.SelectComponent reads it (an index into levels.Components, "Fu-Fl",
+// or "F1u,Fu-F1l,Fl"); an ambiguous label is refused with its candidates.
 func pickComponent(sp *levels.Species, s string) (int, error) {
 	if s == "" || s == "blend" {
 		return interpret.Blend, nil
@@ -153,25 +161,18 @@ func pickComponent(sp *levels.Species, s string) (int, error) {
 	if err != nil {
 		return 0, err
 	}
-	var list []string
-	for i, c := range cs {
-		list = append(list, fmt.Sprintf("%d (F=%g-%g)", i, c.Fu, c.Fl))
-		if fmt.Sprintf("%g-%g", c.Fu, c.Fl) == s {
-			return i, nil
-		}
+	i, err := levels.SelectComponent(cs, s)
+	if err != nil {
+		return 0, usagef("--component %q: %v (or blend)", s, err)
 	}
-	if i, err := strconv.Atoi(s); err == nil && i >= 0 && i < len(cs) {
-		return i, nil
-	}
-	return 0, usagef("--component %q: no such component (allowed: blend, %s)", s, strings.Join(list, ", "))
+	return i, nil
 }
 
 func compName(f *interpret.Factors) string {
 	if f.Component == interpret.Blend {
 		return "blend of all components"
 	}
-	c := f.Components[f.Component]
-	return fmt.Sprintf("component %d, F=%g-%g", f.Component, c.Fu, c.Fl)
+	return fmt.Sprintf("component %d, F=%s", f.Component, levels.ComponentLabels(f.Components)[f.Component])
 }
 
 func printFactors(w io.Writer, f *interpret.Factors) {

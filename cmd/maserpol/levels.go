@@ -25,7 +25,7 @@ import (
 func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("levels", stderr)
 	field := fs.String("field", "", "field `grid`: \"START:STOP:N UNIT\" (N evenly spaced values), a list \"a,b,c UNIT\" or one value \"25 mG\" (default \"0:100:21 mG\" for paramagnetic species, \"0:100:21 G\" for closed-shell ones)")
-	format := fs.String("format", "table", "output `format`: table, ecsv (long form with units, for astropy) or csv (the same, plain)")
+	format := fs.String("format", "table", "output `format`: table, ecsv (long form with units, for astropy), csv (the same, plain), or components (the species as a component-table species file)")
 	plotFile := fs.String("plot", "", "also draw the Zeeman diagram into `FILE` (.png, .svg, .pdf or .eps; no extension: png and svg)")
 	titles := fs.Bool("titles", false, "put a title above the Zeeman diagram (journal figures have none)")
 	compsOnly := fs.Bool("components", false, "print only the zero-field hyperfine components with their weak-field splitting factors")
@@ -44,8 +44,8 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 	if *compsOnly && *plotFile != "" {
 		return report(stderr, usagef("--components lists the zero-field components only; draw the Zeeman diagram without it"))
 	}
-	if *format != "table" && *format != "csv" && *format != "ecsv" {
-		return report(stderr, usagef("--format %q: allowed: table, ecsv, csv", *format))
+	if *format != "table" && *format != "csv" && *format != "ecsv" && *format != "components" {
+		return report(stderr, usagef("--format %q: allowed: table, ecsv, csv, components", *format))
 	}
 	sps, names, err := resolveSpecies(pos[0])
 	if err != nil {
@@ -67,6 +67,15 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 				grid = "0:100:21 mG"
 			}
 		}
+		if *format == "components" {
+			if w := sp.UnverifiedWarning(); w != "" {
+				fmt.Fprintf(stderr, "maserpol: warning: %s (%s)\n", w, names[k])
+			}
+			if err := writeComponentTable(stdout, sp, names[k]); err != nil {
+				return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
+			}
+			continue
+		}
 		fields, unit, err := parseFieldGrid(grid)
 		if err != nil {
 			return report(stderr, err)
@@ -74,8 +83,8 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		if *compsOnly {
 			fields = nil
 		}
-		if sp.Unverified {
-			fmt.Fprintf(stderr, "maserpol: warning: species %s has constants not checked against a source (marked unverified); treat the numbers as illustrative\n", names[k])
+		if w := sp.UnverifiedWarning(); w != "" {
+			fmt.Fprintf(stderr, "maserpol: warning: %s (%s)\n", w, names[k])
 		}
 		lt, err := solveLevels(sp, fields, unit)
 		if err != nil {
@@ -318,6 +327,10 @@ func composition(s *levels.Structure, x *levels.State) string {
 		w float64
 		i int
 	}
+	if len(s.Level.Table) > 0 {
+		// A component-table level has the basis |F M>: states are pure.
+		return fmt.Sprintf("1.000|F=%s,M=%s>", half(x.F), half(x.M))
+	}
 	var ts []term
 	for i, a := range x.Vector {
 		if a*a > 1e-6 {
@@ -398,9 +411,16 @@ func (lt *levelTables) dropWeak(min float64) {
 
 func (lt *levelTables) writeTable(w io.Writer, name string) {
 	sp := lt.sp
-	fmt.Fprintf(w, "Species %s (%s): rest frequency %s, A = %g s^-1, %s magneton\n",
+	fmt.Fprintf(w, "Species %s (%s): rest frequency %s, A = %.4g s^-1, %s magneton\n",
 		name, sp.Name, units.Format(sp.Frequency, units.Frequency, "GHz"), sp.EinsteinA, strings.ToLower(sp.Magneton.String()))
-	fmt.Fprintf(w, "Upper level J = %s, lower level J = %s; energies E/h relative to the unsplit level, offsets relative to the rest frequency.\n\n", half(sp.Upper.J), half(sp.Lower.J))
+	fmt.Fprintf(w, "Upper level J = %s, lower level J = %s; energies E/h relative to the unsplit level, offsets relative to the rest frequency.\n", half(sp.Upper.J), half(sp.Lower.J))
+	if len(sp.Upper.Table) > 0 {
+		fmt.Fprintf(w, "Defined by a hyperfine component table: each F level splits linearly with its g_F, no mixing between F levels (linear up to: inf by construction).\n")
+	}
+	for _, n := range sp.Notes {
+		fmt.Fprintf(w, "Source: %s\n", n)
+	}
+	fmt.Fprintln(w)
 	fmt.Fprintf(w, "Zero-field hyperfine components (weak-field splitting: sigma+ centroid minus pi centroid):\n")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintf(tw, "Fu\tF1u\tFl\tF1l\toffset (kHz)\tstrength\tsplit (Hz/G)\tsplit (km/s/G)\tlinear up to (G)\t\n")

@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"maserpol/config"
@@ -68,7 +69,7 @@ func runStudy(ctx context.Context, st *config.Study, dir string, opt runs.Option
 	opt.Progress = stderr
 	rep, err := runs.Execute(ctx, st, dir, opt)
 	if rep != nil {
-		printWarnings(stderr, rep.Warnings)
+		printWarnings(stderr, rep.Warnings, st.Warnings)
 		for _, f := range rep.Failures {
 			fmt.Fprintf(stderr, "maserpol: model failed: %s\n", f)
 		}
@@ -228,11 +229,16 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 }
 
 // printWarnings prints each distinct warning once with the models it
-// concerns, in model order.
-func printWarnings(w io.Writer, ws []runs.Warning) {
+// concerns, in model order, leaving out those already printed for the
+// whole study (such as the species' unverified values, which every model
+// repeats).
+func printWarnings(w io.Writer, ws []runs.Warning, printed []string) {
 	var order []string
 	models := map[string][]string{}
 	for _, x := range ws {
+		if slices.Contains(printed, x.Msg) {
+			continue
+		}
 		if _, ok := models[x.Msg]; !ok {
 			order = append(order, x.Msg)
 		}

@@ -32,6 +32,17 @@
 //	value = "0.942 MHz"           # for quadrupole: the level's effective eQq_J
 //	source = "..."                # optional provenance, kept in Species.Notes
 //
+// An optional [typical] table (field, fwhm, theta) gives conditions typical
+// of observed masers of the line, for starter configs. unverified may also
+// be an array naming the values that are not checked against a source.
+//
+// Instead of [[spin]] and [[coupling]], a species may be a hyperfine
+// component table (table.go): [components] with an optional spins = ["3/2",
+// "1/2"] and table = """...""", a header of columns (Fu, Fl, F1u, F1l,
+// offset_<unit>, strength or A, gFu, gFl) and one row per component;
+// einstein_a may then be left out when an A column is given. Errors in a
+// table name the file line, the row and the column.
+//
 // The meaning and normalization of each coupling is that of package levels.
 // The sign of g depends on the magneton: with "nuclear" the Zeeman term is
 // H_Z = -mu_N B (g_J J_z + ...), g > 0 a moment parallel to the angular

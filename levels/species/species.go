@@ -94,7 +94,7 @@ func (p *parser) err(key, allowed, format string, a ...any) *Error {
 }
 
 var (
-	topKeys      = []string{"name", "frequency", "einstein_a", "mass", "magneton", "unverified", "sources", "upper", "lower", "spin", "coupling"}
+	topKeys      = []string{"name", "frequency", "einstein_a", "mass", "magneton", "unverified", "sources", "typical", "upper", "lower", "spin", "coupling"}
 	levelKeys    = []string{"J", "g", "label"}
 	spinKeys     = []string{"name", "I", "g", "shielding"}
 	couplingKeys = []string{"kind", "level", "spins", "value", "source"}
@@ -146,8 +146,11 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		}
 		return nil, &Error{File: filename, Msg: "TOML: " + err.Error()}
 	}
-	if err := p.checkKeys("", raw, topKeys); err != nil {
-		return nil, err
+	_, isTable := raw["components"]
+	if !isTable {
+		if err := p.checkKeys("", raw, topKeys); err != nil {
+			return nil, err
+		}
 	}
 	sp := &levels.Species{}
 	var err error
@@ -160,10 +163,10 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	if !(sp.Frequency > 0) {
 		return nil, p.err("frequency", "> 0", "rest frequency must be positive")
 	}
-	if sp.EinsteinA, err = p.quantity(raw, "einstein_a", units.Rate, "s^-1", true); err != nil {
+	if sp.EinsteinA, err = p.quantity(raw, "einstein_a", units.Rate, "s^-1", !isTable); err != nil {
 		return nil, err
 	}
-	if !(sp.EinsteinA > 0) {
+	if _, given := raw["einstein_a"]; given && !(sp.EinsteinA > 0) {
 		return nil, p.err("einstein_a", "> 0", "Einstein A must be positive")
 	}
 	if sp.Mass, err = p.quantity(raw, "mass", units.Mass, "amu", true); err != nil {
@@ -187,11 +190,22 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		return nil, e
 	}
 	if v, ok := raw["unverified"]; ok {
-		b, isB := v.(bool)
-		if !isB {
-			return nil, p.err("unverified", "true, false", "must be a boolean, got %s", typeName(v))
+		const allowed = "true, false, or an array naming the unchecked values"
+		switch x := v.(type) {
+		case bool:
+			sp.Unverified = x
+		case []any:
+			for i, e := range x {
+				s, isS := e.(string)
+				if !isS || strings.TrimSpace(s) == "" {
+					return nil, p.err("unverified", allowed, "entry %d is %s, not a non-empty string", i, typeName(e))
+				}
+				sp.UnverifiedValues = append(sp.UnverifiedValues, s)
+			}
+			sp.Unverified = len(sp.UnverifiedValues) > 0
+		default:
+			return nil, p.err("unverified", allowed, "must be a boolean or an array of strings, got %s", typeName(v))
 		}
-		sp.Unverified = b
 	}
 	if v, ok := raw["sources"]; ok {
 		list, isL := v.([]any)
@@ -206,7 +220,16 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 			sp.Notes = append(sp.Notes, s)
 		}
 	}
+	if err := p.typical(raw, sp); err != nil {
+		return nil, err
+	}
 	sp.Upper.Magneton, sp.Lower.Magneton = sp.Magneton, sp.Magneton
+	if isTable {
+		if err := p.parseTable(raw, data, sp); err != nil {
+			return nil, err
+		}
+		return sp, nil
+	}
 	for _, lv := range []struct {
 		key string
 		dst *levels.Level
@@ -553,4 +576,39 @@ func typeName(v any) string {
 		return "a table"
 	}
 	return fmt.Sprintf("%T", v)
+}
+
+// typical reads the optional [typical] table: conditions typical of
+// observed masers of the line, used by starter configs.
+func (p *parser) typical(raw map[string]any, sp *levels.Species) error {
+	v, ok := raw["typical"]
+	if !ok {
+		return nil
+	}
+	t, ok := v.(map[string]any)
+	if !ok {
+		return p.err("typical", "a table with field, fwhm and theta", "must be a table, got %s", typeName(v))
+	}
+	if err := p.checkKeys("typical", t, []string{"field", "fwhm", "theta"}); err != nil {
+		return err
+	}
+	var err error
+	if sp.Typical.Field, err = p.quantity(t, "field", units.Field, "", false, "typical"); err != nil {
+		return err
+	}
+	fwhm, err := p.quantity(t, "fwhm", units.Velocity, "", false, "typical")
+	if err != nil {
+		return err
+	}
+	if _, given := t["fwhm"]; given && !(fwhm > 0) {
+		return p.err("typical.fwhm", "> 0 km/s", "line width must be positive")
+	}
+	sp.Typical.Doppler = fwhm / (2 * math.Sqrt(math.Ln2))
+	if sp.Typical.Theta, err = p.quantity(t, "theta", units.Angle, "", false, "typical"); err != nil {
+		return err
+	}
+	if sp.Typical.Theta < 0 || sp.Typical.Theta > math.Pi {
+		return p.err("typical.theta", "0 .. 180 deg", "angle out of range")
+	}
+	return nil
 }

@@ -13,7 +13,7 @@ import (
 
 func TestPresetsLoad(t *testing.T) {
 	names := Names()
-	for _, want := range []string{"sio-v1-j1-0", "h2o-22", "oh-like-main", "synthetic-j6-5", "hcn-like-j1-0"} {
+	for _, want := range []string{"sio-v1-j1-0", "h2o-22", "oh-like-main", "synthetic-j6-5", "hcn-like-j1-0", "sio-v1-j2-1"} {
 		found := false
 		for _, n := range names {
 			found = found || n == want
@@ -28,8 +28,12 @@ func TestPresetsLoad(t *testing.T) {
 			t.Errorf("%s: %v", n, err)
 			continue
 		}
-		if !sp.Unverified || len(sp.Notes) == 0 {
-			t.Errorf("%s: presets carry values from memory or invented: want Unverified and Notes", n)
+		if len(sp.Notes) == 0 {
+			t.Errorf("%s: a preset names its sources", n)
+		}
+		// A preset flags exactly the values it cannot source, by name.
+		if sp.Unverified != (len(sp.UnverifiedValues) > 0) {
+			t.Errorf("%s: Unverified = %v with %d named values", n, sp.Unverified, len(sp.UnverifiedValues))
 		}
 		cs, err := levels.Components(sp)
 		if err != nil {
@@ -47,10 +51,10 @@ func TestPresetsLoad(t *testing.T) {
 }
 
 func TestPresetValues(t *testing.T) {
-	// OH-like: the constants reproduce the four ground-state lines that the
-	// preset was built from (1612.231, 1665.402, 1667.359, 1720.530 MHz, from
-	// memory) to 1 kHz, and the 1665/1667 MHz sigma-sigma splittings
-	// 0.590/0.354 km/s per mG (from memory) to 1 %.
+	// OH: the constants reproduce the four ground-state lines (LAMDA,
+	// TestOHFromSources) to 1 kHz, and the 1665/1667 MHz sigma-sigma
+	// splittings observers use, 0.590/0.354 km/s per mG (common practice),
+	// to 1 %.
 	sp, err := Preset("oh-like-main")
 	if err != nil {
 		t.Fatal(err)

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"slices"
 
 	"maserpol/levels"
 	"maserpol/transfer"
@@ -137,8 +138,8 @@ func Diagnose(ctx context.Context, spec DiagnoseSpec, workers int, run RunFunc, 
 		return nil, err
 	}
 	d.Warnings = append(warn, d.Warnings...)
-	if base.Species.Unverified {
-		d.Warnings = append(d.Warnings, fmt.Sprintf("species %q has constants not checked against a source", base.Species.Name))
+	if w := base.Species.UnverifiedWarning(); w != "" && !slices.Contains(d.Warnings, w) {
+		d.Warnings = append(d.Warnings, w)
 	}
 	return d, nil
 }

@@ -65,9 +65,9 @@ func ExampleLinearFactor() {
 	}
 	fmt.Printf("blend: %+.3f m/s per G\n", interpret.BlendLinearFactor(cs))
 	// Output:
-	// F=1-1 at  +3.98 km/s: -0.718 m/s per G
-	// F=2-1 at  -0.80 km/s: -0.071 m/s per G
-	// F=0-1 at  -7.97 km/s: -1.041 m/s per G
+	// F=1-1 at  +4.01 km/s: -0.718 m/s per G
+	// F=2-1 at  -0.83 km/s: -0.071 m/s per G
+	// F=0-1 at  -7.89 km/s: -1.041 m/s per G
 	// blend: -0.394 m/s per G
 }
 

@@ -28,6 +28,9 @@ type FactorSpec struct {
 	// largest) SplitRatio Doppler widths.
 	B0         float64
 	SplitRatio float64 // default 1e-2
+	// PumpOnly pumps only the upper hyperfine level of Component (the
+	// component masers alone) instead of every state alike.
+	PumpOnly bool
 }
 
 // FactorRow is the Zeeman factor at one field angle and checkpoint.
@@ -88,6 +91,8 @@ type Factors struct {
 	BMax     float64
 	Rows     []FactorRow
 	Warnings []string
+	// First is the model at B0 and the first (smallest) angle, for figures.
+	First *transfer.Trajectory
 }
 
 // ComponentVelocity returns the velocity (m/s, radio convention: higher
@@ -257,6 +262,12 @@ func ZeemanFactors(ctx context.Context, spec FactorSpec, workers int, run RunFun
 			p := base
 			p.Field, p.Theta = b, th
 			p.Pump = transfer.Pump{Kind: transfer.Isotropic, LowerPump: base.Pump.LowerPump}
+			if spec.PumpOnly && spec.Component != Blend {
+				c := comps[spec.Component]
+				p.Pump.Kind = transfer.Hyperfine
+				p.Pump.UpperLevels = map[[2]float64]float64{{c.F1u, c.Fu}: 1}
+				p.Pump.OnlyNamed = true
+			}
 			p.Seed.LinearFraction, p.Seed.CircularFraction = 0, 0
 			cases = append(cases, Case{Mechanism: FieldIsotropic, Theta: th, Params: p})
 		}
@@ -278,6 +289,9 @@ func ZeemanFactors(ctx context.Context, spec FactorSpec, workers int, run RunFun
 			return nil, fmt.Errorf("theta %.4g deg: %w", th*180/math.Pi, e)
 		}
 		t1, t2 := trs[i], trs[i+1]
+		if i == 0 {
+			f.First = t1
+		}
 		if len(t1.Checkpoints) != len(t2.Checkpoints) {
 			f.Warnings = append(f.Warnings, fmt.Sprintf("theta %.4g deg: B0 and 2 B0 runs have different checkpoints; linearity is matched by saturation", th*180/math.Pi))
 		}
