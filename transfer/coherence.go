@@ -507,26 +507,7 @@ func (cs *coherent) solve(m *Model, st *state, j int) error {
 	}
 	dim := cs.dim
 	a := cs.a
-	copy(a, cs.base)
-	for i := range cs.entries {
-		e := &cs.entries[i]
-		g := cs.g[e.pair]
-		if e.conj {
-			g = cmplx.Conj(g)
-		}
-		gr, gi := e.coef*real(g), e.coef*imag(g)
-		rr, ri, cr, ci := int(e.rowRe), int(e.rowIm), int(e.colRe), int(e.colIm)
-		a[rr*dim+cr] += gr
-		if ci >= 0 {
-			a[rr*dim+ci] -= e.s * gi
-		}
-		if ri >= 0 {
-			a[ri*dim+cr] += gi
-			if ci >= 0 {
-				a[ri*dim+ci] += e.s * gr
-			}
-		}
-	}
+	cs.assemble(a)
 	phi := m.phi[j]
 	for i, v := range cs.rhs0 {
 		cs.b[i] = phi * v
@@ -568,6 +549,33 @@ func (cs *coherent) solve(m *Model, st *state, j int) error {
 }
 
 var errSingular = errors.New("class matrix is singular")
+
+// assemble writes the class matrix for the current G values into a
+// (dim x dim, row-major): the decay and Bohr frequencies, then every
+// stencil entry in real form.
+func (cs *coherent) assemble(a []float64) {
+	dim := cs.dim
+	copy(a, cs.base)
+	for i := range cs.entries {
+		e := &cs.entries[i]
+		g := cs.g[e.pair]
+		if e.conj {
+			g = cmplx.Conj(g)
+		}
+		gr, gi := e.coef*real(g), e.coef*imag(g)
+		rr, ri, cr, ci := int(e.rowRe), int(e.rowIm), int(e.colRe), int(e.colIm)
+		a[rr*dim+cr] += gr
+		if ci >= 0 {
+			a[rr*dim+ci] -= e.s * gi
+		}
+		if ri >= 0 {
+			a[ri*dim+cr] += gi
+			if ci >= 0 {
+				a[ri*dim+ci] += e.s * gr
+			}
+		}
+	}
+}
 
 // smallDim is the largest class system solved by solveSmall: below it the
 // per-call cost of the blocked LAPACK routines (workspace queries, block

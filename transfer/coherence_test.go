@@ -199,26 +199,7 @@ func classSystem(t *testing.T, m *Model, j int) (a, stim *mat.Dense, x []float64
 	// Rebuild the matrix: solve leaves the LU in cs.a; assemble again.
 	dim := cs.dim
 	full := make([]float64, dim*dim)
-	copy(full, cs.base)
-	for i := range cs.entries {
-		e := &cs.entries[i]
-		g := cs.g[e.pair]
-		if e.conj {
-			g = complex(real(g), -imag(g))
-		}
-		gr, gi := e.coef*real(g), e.coef*imag(g)
-		rr, ri, cr, ci := int(e.rowRe), int(e.rowIm), int(e.colRe), int(e.colIm)
-		full[rr*dim+cr] += gr
-		if ci >= 0 {
-			full[rr*dim+ci] -= e.s * gi
-		}
-		if ri >= 0 {
-			full[ri*dim+cr] += gi
-			if ci >= 0 {
-				full[ri*dim+ci] += e.s * gr
-			}
-		}
-	}
+	cs.assemble(full)
 	a = mat.NewDense(dim, dim, full)
 	stim = mat.NewDense(dim, dim, nil)
 	stim.Sub(a, mat.NewDense(dim, dim, append([]float64(nil), cs.base...)))
