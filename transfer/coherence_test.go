@@ -425,3 +425,27 @@ func TestCoherentNotPhysicalMessage(t *testing.T) {
 		}
 	}
 }
+
+// TestCoherentFieldReversal: reversing B keeps I and Q_f and flips V (as
+// with populations only, physics.md section 7) and also flips U_f: the
+// coherences turn the polarization with the sense of the Larmor
+// precession, which reverses with the field.
+func TestCoherentFieldReversal(t *testing.T) {
+	p := Params{Theta: deg(60), Doppler: 1000, Channels: 128, Population: Density, Saturation: 100, CheckpointsPerDecade: 1}
+	_, a := runModel(t, j10(0.05, 10), p)
+	_, b := runModel(t, j10(-0.05, 10), p)
+	for i, ca := range a.Checkpoints {
+		cb := b.Checkpoints[i]
+		if math.Abs(ca.Qb-cb.Qb) > 1e-9 || math.Abs(ca.Ub+cb.Ub) > 1e-9 || math.Abs(ca.IPeak/cb.IPeak-1) > 1e-9 {
+			t.Errorf("R/Gamma %.3g: q_b %.8f / %.8f, u_b %.8f / %.8f", ca.Saturation, ca.Qb, cb.Qb, ca.Ub, cb.Ub)
+		}
+		for k := range ca.V {
+			if math.Abs(ca.V[k]+cb.V[k]) > 1e-9*ca.IPeak {
+				t.Fatalf("R/Gamma %.3g channel %d: V %.8g / %.8g, want opposite", ca.Saturation, k, ca.V[k], cb.V[k])
+			}
+		}
+	}
+	if last := a.Checkpoints[len(a.Checkpoints)-1]; math.Abs(last.Ub) < 1e-3 {
+		t.Errorf("u_b = %.3g: the check needs coherences that matter", last.Ub)
+	}
+}
