@@ -606,14 +606,17 @@ func solveSmall(a, b []float64, n int) bool {
 		}
 		rk := a[k*n : k*n+n]
 		inv := 1 / rk[k]
+		tail := rk[k+1:]
 		for i := k + 1; i < n; i++ {
 			ri := a[i*n : i*n+n]
 			f := ri[k] * inv
 			if f == 0 {
 				continue
 			}
-			for j := k + 1; j < n; j++ {
-				ri[j] -= f * rk[j]
+			rt := ri[k+1:]
+			rt = rt[:len(tail)] // lets the compiler drop the bounds checks
+			for j, v := range tail {
+				rt[j] -= f * v
 			}
 			b[i] -= f * b[k]
 		}
