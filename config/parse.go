@@ -481,6 +481,7 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			st.Warnings = append(st.Warnings, s)
 		}
 	}
+	size := pd.species.Size()
 	st.Models = make([]Model, total)
 	for i := 0; i < total; i++ {
 		digits(i, axes, pos)
@@ -516,6 +517,9 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			par.Doppler = transfer.DopplerWidth(T, pd.species.Mass, vals["line.turbulence"])
 		}
 		if err := ps.checkModel(&m, pd, vals, warn); err != nil {
+			return nil, err
+		}
+		if err := ps.checkMemory(&m, size); err != nil {
 			return nil, err
 		}
 		for _, k := range []string{"field.strength", "field.theta", "field.chi"} {

@@ -149,6 +149,10 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	if err := p.checkKeys("", raw, topKeys); err != nil {
 		return nil, err
 	}
+	if len(raw) == 0 {
+		return nil, &Error{File: filename, Line: 1, Key: "name", Msg: "the species file is empty (or holds only comments)",
+			Allowed: "a species: name, frequency, einstein_a, mass, [upper] and [lower] tables, optional [[spin]] and [[coupling]]"}
+	}
 	sp := &levels.Species{}
 	var err error
 	if sp.Name, err = p.str(raw, "name", "", true); err != nil {
@@ -251,6 +255,14 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	}
 	sp.Upper.Spins = spins
 	sp.Lower.Spins = append([]levels.Spin(nil), spins...)
+	// Bound the structure before anything is built from it.
+	if err := sp.CheckSize(); err != nil {
+		var se *levels.SizeError
+		if errors.As(err, &se) {
+			return nil, p.err(se.Key, SizeAllowed(), "%s", strings.TrimPrefix(err.Error(), "levels: "))
+		}
+		return nil, err
+	}
 
 	// Couplings.
 	coupTabs, err := p.tables(raw, "coupling")
@@ -330,6 +342,12 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	return sp, nil
 }
 
+// SizeAllowed states the size limits of a species (package levels).
+func SizeAllowed() string {
+	return fmt.Sprintf("at most %d basis states per level, %d dipole components, %s of level structure",
+		levels.MaxDim, levels.MaxLines, levels.BytesText(levels.MaxBytes))
+}
+
 func namesOf(idx []int, names []string) []string {
 	out := make([]string, len(idx))
 	for i, k := range idx {
@@ -389,7 +407,7 @@ func (p *parser) spinRefs(t map[string]any, pre string, names []string) ([]int, 
 	key := pre + ".spins"
 	v, ok := t["spins"]
 	if !ok {
-		return nil, p.err(key, "an array of spin names", "missing")
+		return nil, p.err(key, "an array of spin names", "required key is missing")
 	}
 	var list []string
 	switch x := v.(type) {
@@ -436,7 +454,7 @@ func (p *parser) str(t map[string]any, key, def string, required bool, prefix ..
 	v, ok := t[key]
 	if !ok {
 		if required {
-			return "", p.err(full, "a string", "missing")
+			return "", p.err(full, "a string", "required key is missing")
 		}
 		return def, nil
 	}
@@ -452,7 +470,7 @@ func (p *parser) number(t map[string]any, key, prefix string, required bool, def
 	v, ok := t[key]
 	if !ok {
 		if required {
-			return 0, p.err(full, "a number", "missing")
+			return 0, p.err(full, "a number", "required key is missing")
 		}
 		return def, nil
 	}
@@ -476,7 +494,7 @@ func (p *parser) quantity(t map[string]any, key string, k units.Kind, plain stri
 	v, ok := t[key]
 	if !ok {
 		if required {
-			return 0, p.err(full, unitHint(k, plain), "missing")
+			return 0, p.err(full, unitHint(k, plain), "required key is missing")
 		}
 		return 0, nil
 	}
