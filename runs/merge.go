@@ -19,6 +19,31 @@ func Merge(dst string, srcs ...string) (*Manifest, error) {
 	if len(srcs) == 0 {
 		return nil, inputErrorf("merge: no source directories")
 	}
+	seen := map[string]string{}
+	for i, d := range append([]string{dst}, srcs...) {
+		if i > 0 {
+			if fi, err := os.Stat(d); err != nil || !fi.IsDir() {
+				return nil, inputErrorf("merge: source %s is not a run directory", d)
+			}
+		}
+		lp, err := LockPath(d)
+		if err != nil {
+			return nil, inputErrorf("merge: %v", err)
+		}
+		if prev, dup := seen[lp]; dup {
+			return nil, inputErrorf("merge: %s and %s are the same directory", prev, d)
+		}
+		seen[lp] = d
+	}
+	// Hold the destination and every source: no run may write them while
+	// they are merged.
+	for _, d := range append([]string{dst}, srcs...) {
+		lk, err := LockDir(d, "merge")
+		if err != nil {
+			return nil, err
+		}
+		defer lk.Unlock()
+	}
 	if fi, err := os.Stat(dst); err == nil {
 		if !fi.IsDir() {
 			return nil, inputErrorf("merge: %s exists and is not a directory", dst)

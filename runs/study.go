@@ -101,6 +101,15 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	if opt.Shard.N > 1 && (opt.Shard.K < 1 || opt.Shard.K > opt.Shard.N) {
 		return nil, inputErrorf("bad shard %d/%d", opt.Shard.K, opt.Shard.N)
 	}
+	if dir == "" {
+		return nil, inputErrorf("no run directory given (set output.dir in the config or use --out)")
+	}
+	// One process per directory, for the whole session.
+	lock, err := LockDir(dir, "run")
+	if err != nil {
+		return nil, err
+	}
+	defer lock.Unlock()
 	l := newLayout(st)
 	now := time.Now()
 	man, err := prepareDir(st, dir, l, opt, now)
@@ -108,6 +117,9 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		return nil, err
 	}
 	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, "summary.csv"), Manifest: filepath.Join(dir, "manifest.json")}
+	if lock.Stale != "" {
+		rep.Notes = append(rep.Notes, "took over the lock left by "+lock.Stale+", which no longer runs")
+	}
 
 	// The models/ files are the record of what is finished.
 	var todo []int

@@ -154,6 +154,11 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return report(stderr, err)
 	}
+	lock, err := runs.LockDir(dir, "plot")
+	if err != nil {
+		return report(stderr, err)
+	}
+	defer lock.Unlock()
 	figs, err := runs.Plot(dir, fm, noteTo(stderr))
 	if err != nil {
 		return report(stderr, err)
@@ -210,6 +215,11 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		return report(stderr, err)
 	}
 	if plots && !*noPlots && done > 0 {
+		lock, err := runs.LockDir(pos[0], "plot")
+		if err != nil {
+			return report(stderr, err)
+		}
+		defer lock.Unlock()
 		figs, err := runs.Plot(pos[0], fm, noteTo(stderr))
 		if err != nil {
 			return report(stderr, err)
