@@ -1,6 +1,7 @@
 package runs
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -37,6 +38,12 @@ const maxCurves = figures.DefaultMaxLegend
 //	                          one curve per value of the other parameters
 //	                          (only when theta varies)
 func Plot(dir string, formats []string, note func(string)) ([]string, error) {
+	return PlotContext(context.Background(), dir, formats, note)
+}
+
+// PlotContext is Plot that stops before the next figure when ctx is
+// cancelled and returns ctx.Err(); the figures drawn so far stay.
+func PlotContext(ctx context.Context, dir string, formats []string, note func(string)) ([]string, error) {
 	if len(formats) == 0 {
 		formats = []string{"png", "svg"}
 	}
@@ -59,6 +66,9 @@ func Plot(dir string, formats []string, note func(string)) ([]string, error) {
 	removeOwnFigures(pd, formats)
 	var out []string
 	save := func(fig *figures.Stack, name string) error {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
 		p, err := fig.Save(filepath.Join(pd, name), formats)
 		out = append(out, p...)
 		if errors.Is(err, figures.ErrNoData) {

@@ -195,13 +195,16 @@ const (
 
 // writeModelTable renders the summary rows of one model (none if it
 // failed) with its status in the metadata.
-func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model, tr *transfer.Trajectory, runErr error) error {
+func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model, tr *transfer.Trajectory, spectrumSum string, runErr error) error {
 	meta := []ecsv.Meta{{Key: "model", Value: m.Name}, {Key: "index", Value: strconv.Itoa(m.Index)}, {Key: "species", Value: m.Species}}
 	if runErr != nil {
 		meta = append(meta, ecsv.Meta{Key: "status", Value: StatusFailed}, ecsv.Meta{Key: "error", Value: runErr.Error()})
 	} else {
 		meta = append(meta, ecsv.Meta{Key: "status", Value: StatusDone})
 		meta = append(meta, ecsv.Meta{Key: "gomega_per_s", Value: strconv.FormatFloat(tr.GOmega, 'g', -1, 64)})
+		// What a resume checks before it keeps the model.
+		meta = append(meta, ecsv.Meta{Key: "checkpoints", Value: strconv.Itoa(len(tr.Checkpoints))},
+			ecsv.Meta{Key: "spectrum_sha256", Value: spectrumSum})
 		for i, w := range modelWarnings(tr) {
 			meta = append(meta, ecsv.Meta{Key: "warning" + strconv.Itoa(i+1), Value: w})
 		}
