@@ -1,6 +1,7 @@
 package runs
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"fmt"
@@ -114,3 +115,84 @@ func TestLockExcludes(t *testing.T) {
 }
 
 func fileExists(p string) bool { _, err := os.Stat(p); return err == nil }
+
+// TestWriteErrorStopsStudy makes the spectra directory unwritable after
+// two models (as a full disk would): the study stops instead of computing
+// and discarding the rest, the manifest says exactly which models are on
+// disk and that the session stopped on a write error, and a resume after
+// the cause is removed completes tables identical to an uninterrupted run.
+func TestWriteErrorStopsStudy(t *testing.T) {
+	st := study(t, cfg2x3)
+	ref := t.TempDir()
+	execute(t, st, ref, Options{Workers: 1})
+	d := filepath.Join(t.TempDir(), "run")
+	var calls atomic.Int32
+	spectra := filepath.Join(d, "spectra")
+	breaking := func(ctx context.Context, p transfer.Params) (*transfer.Trajectory, error) {
+		if calls.Add(1) == 3 {
+			// Replace the directory by a file: every write into it fails,
+			// even for root.
+			os.Rename(spectra, spectra+".away")
+			os.WriteFile(spectra, nil, 0o644)
+		}
+		return synthetic(ctx, p)
+	}
+	rep, err := Execute(context.Background(), st, d, Options{Workers: 1, Model: breaking})
+	if err == nil {
+		t.Fatal("a study that cannot write its results reported success")
+	}
+	if n := calls.Load(); n != 3 {
+		t.Errorf("%d models computed; the study should stop at the first write error (3)", n)
+	}
+	if rep == nil || rep.Ran != 2 || rep.Pending != 4 {
+		t.Fatalf("report after the write error: %+v", rep)
+	}
+	man, merr := ReadManifest(d)
+	if merr != nil {
+		t.Fatal(merr)
+	}
+	done := 0
+	for _, m := range man.Models {
+		if m.Status == StatusDone {
+			done++
+			if !fileExists(filepath.Join(d, "models", m.Name+".ecsv")) {
+				t.Errorf("manifest says %s is done; its models/ file is missing", m.Name)
+			}
+		}
+	}
+	last := man.Sessions[len(man.Sessions)-1]
+	if done != 2 || man.Status != StudyInterrupted || !strings.HasPrefix(last.Stopped, "write error") {
+		t.Errorf("manifest: %d done, status %s, session %+v", done, man.Status, last)
+	}
+	os.Remove(spectra)
+	os.Rename(spectra+".away", spectra)
+	execute(t, st, d, Options{Workers: 2, Resume: true})
+	sameTables(t, tables(t, ref), tables(t, d), "resumed after a write error")
+}
+
+// TestResumeVerifiesSpectra truncates and edits finished spectra: resume
+// notices both (checksum recorded in the models/ file), recomputes those
+// models and ends with tables identical to an uninterrupted run.
+func TestResumeVerifiesSpectra(t *testing.T) {
+	st := study(t, cfg2x3)
+	ref := t.TempDir()
+	execute(t, st, ref, Options{Workers: 1})
+	d := t.TempDir()
+	execute(t, st, d, Options{Workers: 1})
+	f1 := filepath.Join(d, "spectra", "m0001.ecsv")
+	data, _ := os.ReadFile(f1)
+	os.WriteFile(f1, data[:len(data)/2], 0o644)
+	f4 := filepath.Join(d, "spectra", "m0004.ecsv")
+	data, _ = os.ReadFile(f4)
+	os.WriteFile(f4, bytes.Replace(data, []byte("1"), []byte("2"), 1), 0o644)
+	var calls atomic.Int32
+	counting := func(c context.Context, p transfer.Params) (*transfer.Trajectory, error) {
+		calls.Add(1)
+		return synthetic(c, p)
+	}
+	rep := execute(t, st, d, Options{Resume: true, Model: counting})
+	if calls.Load() != 2 || len(rep.Notes) != 2 {
+		t.Errorf("resume recomputed %d models (want the 2 damaged ones); notes %q", calls.Load(), rep.Notes)
+	}
+	sameTables(t, tables(t, ref), tables(t, d), "resumed after damage")
+}

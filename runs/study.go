@@ -185,12 +185,18 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		go func() {
 			defer wg.Done()
 			for i := range jobs {
+				if runCtx.Err() != nil {
+					results <- result{i: i, canceled: true}
+					continue
+				}
 				t0 := time.Now()
 				warn, err := runOne(runCtx, st, l, dir, &st.Models[i], opt.Model)
 				r := result{i: i, err: err, warnings: warn, secs: time.Since(t0).Seconds()}
-				if err != nil && runCtx.Err() != nil {
-					var we *writeError
-					r.canceled = !errors.As(err, &we)
+				var we *writeError
+				if errors.As(err, &we) {
+					stopRun() // at once, before another model starts
+				} else if err != nil && runCtx.Err() != nil {
+					r.canceled = true
 				}
 				results <- r
 			}
@@ -283,11 +289,14 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	man.update()
 	end := stamp(time.Now())
 	sess.Finished = end
+	// A signal that arrives once every model of the session is finished
+	// interrupts nothing but the figures.
+	interrupted := ctx.Err() != nil && rep.Pending > 0
 	switch {
 	case writeErr != nil:
 		man.Status = StudyInterrupted
 		sess.Stopped = "write error: " + writeErr.Error()
-	case ctx.Err() != nil:
+	case interrupted:
 		man.Status = StudyInterrupted
 		sess.Stopped = "interrupted"
 	case man.Status != StudyIncomplete:
@@ -299,7 +308,7 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	if writeErr != nil {
 		return rep, writeErr
 	}
-	if ctx.Err() != nil {
+	if interrupted {
 		return rep, ctx.Err()
 	}
 	if st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
