@@ -337,6 +337,21 @@ func (ps *parser) checkFLabels(pd *parsed) *Error {
 			have[f] = true
 			names = append(names, strconv.Quote(halfText(f)))
 		}
+		// Unlisted F labels keep weight 1; a level whose every weight is 0
+		// is refused by transfer ("nothing is pumped"): refuse it here.
+		allZero := true
+		for _, f := range fs {
+			if x, ok := w[f]; !ok || x > 0 {
+				allZero = false
+			}
+		}
+		if allZero && pd.str["pump.kind"] == "hyperfine" {
+			hint := "at least one F with a weight > 0"
+			if lv.path == "pump.lower_f" {
+				hint += "; to pump the lower level not at all, set pump.lower_ratio = 0"
+			}
+			return ps.err(lv.path, hint, "every F of the %s level has pump weight 0: nothing would be pumped", strings.TrimSuffix(strings.TrimPrefix(lv.path, "pump."), "_f"))
+		}
 		t, _ := lookupRaw(pd.raw, &spec{table: "pump", name: strings.TrimPrefix(lv.path, "pump.")})
 		tbl, _ := t.(map[string]any)
 		for _, k := range sortedKeys(tbl) {
@@ -482,6 +497,7 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 		}
 	}
 	size := pd.species.Size()
+	spreads := map[float64]lineSpread{}
 	st.Models = make([]Model, total)
 	for i := 0; i < total; i++ {
 		digits(i, axes, pos)
@@ -520,6 +536,9 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			return nil, err
 		}
 		if err := ps.checkMemory(&m, size); err != nil {
+			return nil, err
+		}
+		if err := ps.checkGrid(&m, pd, spreads); err != nil {
 			return nil, err
 		}
 		for _, k := range []string{"field.strength", "field.theta", "field.chi"} {

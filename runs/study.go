@@ -351,6 +351,9 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 	if err != nil && ctx.Err() != nil {
 		return nil, err // cancelled: leave no record, the model stays pending
 	}
+	if err == nil {
+		tr.Warnings = append(tr.Warnings, checkGrid(ctx, m.Params, tr)...)
+	}
 	var sum string
 	if err == nil {
 		h := sha256.New()
