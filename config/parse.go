@@ -119,6 +119,7 @@ func (ps *parser) parse(data []byte) (*Study, *Error) {
 			}
 			e.Key = pe.LastKey
 			e.Msg = "malformed TOML: " + pe.Message
+			tomlpos.Locate(e, data)
 		}
 		return nil, e
 	}
@@ -244,8 +245,11 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 	switch s.typ {
 	case tString:
 		str, ok := v.(string)
-		if !ok || str == "" {
+		if !ok {
 			return ps.err(path, s.allowed(), "expected a non-empty string, got %s", tomlType(v))
+		}
+		if str == "" {
+			return ps.err(path, s.allowed(), "empty string")
 		}
 		if path == "name" && !nameRE.MatchString(str) {
 			return ps.err(path, "letters, digits, '.', '_' and '-', starting with a letter or digit, at most 100", "bad name %q", str)
@@ -269,8 +273,11 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 		pd.bools[path] = b
 	case tStrings:
 		list, ok := v.([]any)
-		if !ok || len(list) == 0 {
+		if !ok {
 			return ps.err(path, "a non-empty list of "+s.allowed(), "expected a list of strings, got %s", tomlType(v))
+		}
+		if len(list) == 0 {
+			return ps.err(path, "a non-empty list of "+s.allowed(), "empty list")
 		}
 		var out []string
 		for _, e := range list {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -38,6 +39,15 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	if *top < 1 {
 		return report(stderr, usagef("--top %d: allowed >= 1", *top))
 	}
+	if err := checkUnit("velocity-unit", *vunit, units.Velocity); err != nil {
+		return report(stderr, err)
+	}
+	if err := checkOutput("csv", *csvPath, false); err != nil {
+		return report(stderr, err)
+	}
+	if err := checkOutput("plot", *plotPath, true); err != nil {
+		return report(stderr, err)
+	}
 	var opt interpret.FitOptions
 	if *maxShift != "" {
 		if opt.MaxShift, err = units.Parse(*maxShift, units.Velocity); err != nil || !(opt.MaxShift > 0) {
@@ -47,6 +57,9 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	obs, err := interpret.ReadObserved(pos[1], interpret.ReadOptions{VelocityUnit: *vunit, IntensityUnit: *iunit, Stokes: *stokes})
 	if err != nil {
 		return report(stderr, usagef("%v", err))
+	}
+	if n := len(obs.Velocity); n > maxObservedChannels {
+		return report(stderr, usagef("%s: %d channels; at most %d can be compared (the channel limit of a model): average channels or cut the velocity range to the line", pos[1], n, maxObservedChannels))
 	}
 	models, warn, err := interpret.ReadRunDir(pos[0])
 	if err != nil {
@@ -75,7 +88,14 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *csvPath)
 	}
 	if *plotPath != "" {
-		paths, err := saveFigure(interpret.CompareFigure(obs, rk[:min(*top, len(rk))], "best models over "+obs.File), *plotPath)
+		shown := obs
+		if k := (len(obs.Velocity) + maxPlotPoints - 1) / maxPlotPoints; k > 1 {
+			// A figure cannot show more points than it has pixels: draw
+			// block averages (errors shrink by sqrt(k)).
+			shown = reduced(obs, k)
+			fmt.Fprintf(stderr, "maserpol: note: the figure shows %s averaged per point (%d channels)\n", fmtCount(k, "channel"), len(obs.Velocity))
+		}
+		paths, err := saveFigure(interpret.CompareFigure(shown, rk[:min(*top, len(rk))], "best models over "+obs.File), *plotPath)
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -204,4 +224,20 @@ func rankingCSV(obs *interpret.Observed, rk []interpret.Ranked) []byte {
 		b.row(append(cells, fcsv(r.Best.RedChi2))...)
 	}
 	return b.Bytes()
+}
+
+// reduced returns obs averaged in blocks of k channels, for drawing.
+func reduced(obs *interpret.Observed, k int) *interpret.Observed {
+	r := *obs
+	r.Velocity = averaged(obs.Velocity, k)
+	for i := range r.Stokes {
+		r.Stokes[i] = averaged(obs.Stokes[i], k)
+		if e := averaged(obs.Err[i], k); e != nil {
+			for j := range e {
+				e[j] /= math.Sqrt(float64(k))
+			}
+			r.Err[i] = e
+		}
+	}
+	return &r
 }

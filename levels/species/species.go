@@ -1,6 +1,7 @@
 package species
 
 import (
+	"bytes"
 	"embed"
 	"errors"
 	"fmt"
@@ -10,6 +11,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/BurntSushi/toml"
 
@@ -142,7 +144,14 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	if _, err := toml.Decode(string(data), &raw); err != nil {
 		var pe toml.ParseError
 		if errors.As(err, &pe) {
-			return nil, &Error{File: filename, Line: pe.Position.Line, Msg: "TOML syntax: " + pe.Message}
+			e := &Error{File: filename, Line: pe.Position.Line, Key: pe.LastKey, Msg: "malformed TOML: " + pe.Message}
+			if st := pe.Position.Start; st > 0 && st <= len(data) {
+				// Counted from the byte offset: the decoder puts an error at
+				// a newline on the next line.
+				e.Line = 1 + bytes.Count(data[:st], []byte{'\n'})
+			}
+			tomlpos.Locate(e, data)
+			return nil, e
 		}
 		return nil, &Error{File: filename, Msg: "TOML: " + err.Error()}
 	}
@@ -569,6 +578,8 @@ func typeName(v any) string {
 		return "an array"
 	case map[string]any:
 		return "a table"
+	case time.Time:
+		return "a date-time"
 	}
-	return fmt.Sprintf("%T", v)
+	return "a value of another type"
 }
