@@ -37,7 +37,13 @@ func Load(path string) (*Study, error) {
 // errors, for the default study name, and as the base of relative species
 // file paths (the working directory when filename is empty).
 func Parse(data []byte, filename string) (*Study, error) {
-	ps := &parser{file: filename, pos: tomlpos.Index(data)}
+	return parseLimited(data, filename, maxModels)
+}
+
+// parseLimited is Parse with another bound on the number of models (the
+// fuzz test keeps studies small so that it can try many).
+func parseLimited(data []byte, filename string, limit int) (*Study, error) {
+	ps := &parser{file: filename, pos: tomlpos.Index(data), maxModels: limit}
 	if filename != "" {
 		ps.dir = filepath.Dir(filename)
 	}
@@ -50,9 +56,10 @@ func Parse(data []byte, filename string) (*Study, error) {
 
 // parser holds the state of one Parse.
 type parser struct {
-	file string
-	dir  string
-	pos  *tomlpos.Positions
+	file      string
+	dir       string
+	pos       *tomlpos.Positions
+	maxModels int
 }
 
 func (ps *parser) err(key, allowed, format string, args ...any) *Error {

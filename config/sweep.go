@@ -436,8 +436,8 @@ func (ps *parser) axes(params []*param) ([]*axis, *Error) {
 	}
 	total := 1
 	for _, a := range out {
-		if total > maxModels/a.n {
-			return nil, ps.err(a.params[0].spec.path(), fmt.Sprintf("at most %d models", maxModels), "the study expands to too many models")
+		if total > ps.maxModels/a.n {
+			return nil, ps.err(a.params[0].spec.path(), fmt.Sprintf("at most %d models", ps.maxModels), "the study expands to too many models")
 		}
 		total *= a.n
 	}
