@@ -196,3 +196,55 @@ func TestResumeVerifiesSpectra(t *testing.T) {
 	}
 	sameTables(t, tables(t, ref), tables(t, d), "resumed after damage")
 }
+
+// TestSummaryWriteErrorNotComplete: when summary.csv cannot be written
+// the manifest must not call the study complete, and a resume once the
+// cause is gone writes it.
+func TestSummaryWriteErrorNotComplete(t *testing.T) {
+	st := study(t, cfg2x3)
+	ref := t.TempDir()
+	execute(t, st, ref, Options{})
+	d := filepath.Join(t.TempDir(), "run")
+	blocking := func(ctx context.Context, p transfer.Params) (*transfer.Trajectory, error) {
+		// A directory where summary.csv should go: the rename onto it fails.
+		os.MkdirAll(filepath.Join(d, "summary.csv", "x"), 0o755)
+		return synthetic(ctx, p)
+	}
+	if _, err := Execute(context.Background(), st, d, Options{Model: blocking}); err == nil {
+		t.Fatal("a study whose summary could not be written reported success")
+	}
+	man, err := ReadManifest(d)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if man.Status == StudyComplete || man.Finished != "" {
+		t.Errorf("manifest says %s (finished %q) without summary.csv", man.Status, man.Finished)
+	}
+	os.RemoveAll(filepath.Join(d, "summary.csv"))
+	execute(t, st, d, Options{Resume: true})
+	sameTables(t, tables(t, ref), tables(t, d), "after the summary was written on resume")
+}
+
+// TestExistingEmptyDirectory: a run into an existing empty directory
+// fills it in place, and one killed before its manifest (only config.toml
+// and empty subdirectories) is continued by --resume.
+func TestExistingEmptyDirectory(t *testing.T) {
+	st := study(t, cfg2x3)
+	ref := t.TempDir()
+	execute(t, st, ref, Options{})
+	d := t.TempDir() // exists, empty
+	execute(t, st, d, Options{})
+	sameTables(t, tables(t, ref), tables(t, d), "run into an existing empty directory")
+
+	p := t.TempDir()
+	os.WriteFile(filepath.Join(p, "config.toml"), st.Resolved, 0o644)
+	os.Mkdir(filepath.Join(p, "models"), 0o755)
+	execute(t, st, p, Options{Resume: true})
+	sameTables(t, tables(t, ref), tables(t, p), "resume of a start killed before its manifest")
+
+	other := t.TempDir()
+	os.WriteFile(filepath.Join(other, "config.toml"), []byte("# another config\n"), 0o644)
+	if _, err := Execute(context.Background(), st, other, Options{Resume: true, Model: synthetic}); err == nil {
+		t.Error("a directory holding another config.toml was taken")
+	}
+}

@@ -480,21 +480,67 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 		case !errors.Is(merr, os.ErrNotExist):
 			return nil, inputErrorf("%s: %v", dir, merr)
 		}
-		ents, _ := os.ReadDir(dir)
-		if len(ents) > 0 {
+		if !startedHere(dir, st.Resolved) {
 			return nil, inputErrorf("%s exists, is not empty and holds no run (no manifest.json); choose another --out", dir)
 		}
 	}
 	man := newManifest(st, l, opt.Shard, now)
-	if err := createDir(dir, func(tmp string) error {
-		if err := writeFileAtomic(filepath.Join(tmp, "config.toml"), st.Resolved); err != nil {
+	fill := func(d string) error {
+		if err := writeFileAtomic(filepath.Join(d, "config.toml"), st.Resolved); err != nil {
 			return err
 		}
-		return man.write(tmp)
-	}); err != nil {
+		return man.write(d) // last: the manifest marks a run directory
+	}
+	if exists {
+		// An existing empty directory (perhaps the working directory) is
+		// filled in place: replacing it could pull it from under a
+		// process that stands in it.
+		for _, sub := range []string{"models", "spectra"} {
+			if err := os.MkdirAll(filepath.Join(dir, sub), 0o755); err != nil {
+				return nil, err
+			}
+		}
+		if err := fill(dir); err != nil {
+			return nil, err
+		}
+		return man, nil
+	}
+	if err := createDir(dir, fill); err != nil {
 		return nil, err
 	}
 	return man, nil
+}
+
+// startedHere reports whether dir is empty, or holds only what a start of
+// this same run leaves before its manifest (filling an existing
+// directory): config.toml equal to resolved, empty models/ and spectra/,
+// temporary files.
+func startedHere(dir string, resolved []byte) bool {
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return false
+	}
+	for _, e := range ents {
+		n := e.Name()
+		switch {
+		case strings.Contains(n, tmpMarker):
+		case n == "config.toml":
+			data, err := os.ReadFile(filepath.Join(dir, n))
+			if err != nil || !bytes.Equal(data, resolved) {
+				return false
+			}
+		case (n == "models" || n == "spectra") && e.IsDir():
+			sub, _ := os.ReadDir(filepath.Join(dir, n))
+			for _, f := range sub {
+				if !strings.Contains(f.Name(), tmpMarker) {
+					return false
+				}
+			}
+		default:
+			return false
+		}
+	}
+	return true
 }
 
 // tmpDirMarker names directories under construction, beside their
