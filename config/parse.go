@@ -37,7 +37,13 @@ func Load(path string) (*Study, error) {
 // errors, for the default study name, and as the base of relative species
 // file paths (the working directory when filename is empty).
 func Parse(data []byte, filename string) (*Study, error) {
-	ps := &parser{file: filename, pos: tomlpos.Index(data)}
+	return parseLimited(data, filename, maxModels)
+}
+
+// parseLimited is Parse with another bound on the number of models (the
+// fuzz test keeps studies small so that it can try many).
+func parseLimited(data []byte, filename string, limit int) (*Study, error) {
+	ps := &parser{file: filename, pos: tomlpos.Index(data), maxModels: limit}
 	if filename != "" {
 		ps.dir = filepath.Dir(filename)
 	}
@@ -50,9 +56,10 @@ func Parse(data []byte, filename string) (*Study, error) {
 
 // parser holds the state of one Parse.
 type parser struct {
-	file string
-	dir  string
-	pos  *tomlpos.Positions
+	file      string
+	dir       string
+	pos       *tomlpos.Positions
+	maxModels int
 }
 
 func (ps *parser) err(key, allowed, format string, args ...any) *Error {
@@ -124,6 +131,7 @@ func (ps *parser) parse(data []byte) (*Study, *Error) {
 			}
 			e.Key = pe.LastKey
 			e.Msg = "malformed TOML: " + pe.Message
+			tomlpos.Locate(e, data)
 		}
 		return nil, e
 	}
@@ -257,8 +265,11 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 	switch s.typ {
 	case tString:
 		str, ok := v.(string)
-		if !ok || str == "" {
+		if !ok {
 			return ps.err(path, s.allowed(), "expected a non-empty string, got %s", tomlType(v))
+		}
+		if str == "" {
+			return ps.err(path, s.allowed(), "empty string")
 		}
 		if path == "name" && !nameRE.MatchString(str) {
 			return ps.err(path, "letters, digits, '.', '_' and '-', starting with a letter or digit, at most 100", "bad name %q", str)
@@ -282,8 +293,11 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 		pd.bools[path] = b
 	case tStrings:
 		list, ok := v.([]any)
-		if !ok || len(list) == 0 {
+		if !ok {
 			return ps.err(path, "a non-empty list of "+s.allowed(), "expected a list of strings, got %s", tomlType(v))
+		}
+		if len(list) == 0 {
+			return ps.err(path, "a non-empty list of "+s.allowed(), "empty list")
 		}
 		var out []string
 		for _, e := range list {
@@ -363,6 +377,21 @@ func (ps *parser) checkFLabels(pd *parsed) *Error {
 		for _, f := range fs {
 			have[f] = true
 			names = append(names, strconv.Quote(halfText(f)))
+		}
+		// Unlisted F labels keep weight 1; a level whose every weight is 0
+		// is refused by transfer ("nothing is pumped"): refuse it here.
+		allZero := true
+		for _, f := range fs {
+			if x, ok := w[f]; !ok || x > 0 {
+				allZero = false
+			}
+		}
+		if allZero && pd.str["pump.kind"] == "hyperfine" {
+			hint := "at least one F with a weight > 0"
+			if lv.path == "pump.lower_f" {
+				hint += "; to pump the lower level not at all, set pump.lower_ratio = 0"
+			}
+			return ps.err(lv.path, hint, "every F of the %s level has pump weight 0: nothing would be pumped", strings.TrimSuffix(strings.TrimPrefix(lv.path, "pump."), "_f"))
 		}
 		t, _ := lookupRaw(pd.raw, &spec{table: "pump", name: strings.TrimPrefix(lv.path, "pump.")})
 		tbl, _ := t.(map[string]any)
@@ -511,6 +540,8 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			st.Warnings = append(st.Warnings, s)
 		}
 	}
+	size := pd.species.Size()
+	spreads := map[float64]lineSpread{}
 	st.Models = make([]Model, total)
 	for i := 0; i < total; i++ {
 		digits(i, axes, pos)
@@ -553,6 +584,12 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			par.Doppler = transfer.DopplerWidth(T, pd.species.Mass, vals["line.turbulence"])
 		}
 		if err := ps.checkModel(&m, pd, vals, warn); err != nil {
+			return nil, err
+		}
+		if err := ps.checkMemory(&m, size); err != nil {
+			return nil, err
+		}
+		if err := ps.checkGrid(&m, pd, spreads); err != nil {
 			return nil, err
 		}
 		for _, k := range []string{"field.strength", "field.theta", "field.chi"} {

@@ -97,7 +97,7 @@ func asError(err error, e **Error) bool {
 // line.reference: velocity 0 at the chosen OH line (LAMDA 1665.402 MHz);
 // an unknown one is refused at its key.
 func TestLineReference(t *testing.T) {
-	st, err := Parse([]byte("species = \"oh-like-main\"\n[field]\nstrength = \"3 mG\"\n[line]\nreference = \"1-1\"\n"), "c.toml")
+	st, err := Parse([]byte("species = \"oh-like-main\"\n[field]\nstrength = \"3 mG\"\n[line]\nreference = \"1-1\"\nspan = \"5 km/s\"\n"), "c.toml")
 	if err != nil {
 		t.Fatal(err)
 	}

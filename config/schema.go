@@ -228,7 +228,7 @@ func schema() []*spec {
 			set: func(p *transfer.Params, x float64) { p.CoherenceThreshold = x }},
 
 		{table: "column", name: "saturation", typ: tNumber, column: "saturation",
-			def: floatText(transfer.DefaultSaturation), min: 0, minOpen: true, max: 1e12, doc: "stop when R/Gamma at line centre reaches this (default unless gain is given)",
+			def: floatText(transfer.DefaultSaturation), min: 0, minOpen: true, max: MaxSaturation, doc: "stop when R/Gamma at line centre reaches this (default unless gain is given)",
 			set: func(p *transfer.Params, x float64) { p.Saturation = x }},
 		{table: "column", name: "gain", typ: tNumber, column: "gain", example: "20.0",
 			min: 0, minOpen: true, max: 700, doc: "or stop at this total unsaturated line-centre gain |tau|",
@@ -237,7 +237,7 @@ func schema() []*spec {
 			def: strconv.Itoa(transfer.DefaultCheckpointsPerDecade), min: 1, max: 100, doc: "checkpoints per decade of saturation",
 			set: func(p *transfer.Params, x float64) { p.CheckpointsPerDecade = int(x) }},
 		{table: "column", name: "first_checkpoint", typ: tNumber, column: "first_checkpoint",
-			def: floatText(transfer.DefaultFirstCheckpoint), min: 0, minOpen: true, max: 1e12, doc: "lowest saturation recorded (below the target saturation)",
+			def: floatText(transfer.DefaultFirstCheckpoint), min: 0, minOpen: true, max: MaxSaturation, doc: "lowest saturation recorded (below the target saturation)",
 			set: func(p *transfer.Params, x float64) { p.FirstCheckpoint = x }},
 		{table: "column", name: "tolerance", typ: tNumber, column: "tolerance",
 			def: floatText(transfer.DefaultTolerance), min: 1e-10, max: 0.1, doc: "relative local error per integration step",
@@ -274,6 +274,12 @@ var (
 
 // Limits of a study.
 const (
+	// MaxSaturation is the largest column.saturation: the column is bounded
+	// at 1e9 unsaturated gain lengths in transfer, where SiO v=1 J=1-0
+	// reaches R/Gamma = 2.5e8 (the saturated intensity grows linearly with
+	// path); 1e8 leaves room for species that saturate more slowly.
+	MaxSaturation = 1e8
+
 	maxModels  = 1000000
 	maxSamples = 100000
 )

@@ -64,7 +64,7 @@ func (ps *parser) resolveSpecies(pd *parsed) *Error {
 			sp, err = species.Resolve(ref)
 		}
 		var se *Error
-		if err != nil && isPath && errors.As(err, &se) && se.Line > 0 {
+		if err != nil && isPath && errors.As(err, &se) && se.File == ref && (se.Line > 0 || se.Key != "") {
 			// An error inside the species file: report it where it is.
 			return se
 		}

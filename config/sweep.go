@@ -8,6 +8,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/samplemv"
@@ -281,9 +282,15 @@ func (ps *parser) random(p *param, t map[string]any) *Error {
 		return ps.err(key+".dist", quoteList(dists), "unknown distribution %v", t["dist"])
 	}
 	p.dist = d
-	n, ok := t["n"].(int64)
-	if !ok || n < 1 || n > maxSamples {
-		return ps.err(key+".n", fmt.Sprintf("an integer >= 1 and <= %d", maxSamples), "bad or missing sample count n = %v", t["n"])
+	nv, given := t["n"]
+	n, ok := nv.(int64)
+	switch {
+	case !given:
+		return ps.err(key+".n", fmt.Sprintf("an integer >= 1 and <= %d", maxSamples), "random draw without a sample count n")
+	case !ok:
+		return ps.err(key+".n", fmt.Sprintf("an integer >= 1 and <= %d", maxSamples), "sample count n is %s, not an integer", tomlType(nv))
+	case n < 1 || n > maxSamples:
+		return ps.err(key+".n", fmt.Sprintf("an integer >= 1 and <= %d", maxSamples), "sample count n = %d out of range", n)
 	}
 	p.n = int(n)
 	p.seed = 1
@@ -429,8 +436,8 @@ func (ps *parser) axes(params []*param) ([]*axis, *Error) {
 	}
 	total := 1
 	for _, a := range out {
-		if total > maxModels/a.n {
-			return nil, ps.err(a.params[0].spec.path(), fmt.Sprintf("at most %d models", maxModels), "the study expands to too many models")
+		if total > ps.maxModels/a.n {
+			return nil, ps.err(a.params[0].spec.path(), fmt.Sprintf("at most %d models", ps.maxModels), "the study expands to too many models")
 		}
 		total *= a.n
 	}
@@ -469,6 +476,8 @@ func tomlType(v any) string {
 		return "an array"
 	case map[string]any:
 		return "a table"
+	case time.Time:
+		return "a date-time"
 	}
-	return fmt.Sprintf("a %T", v)
+	return "a value of another type"
 }

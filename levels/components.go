@@ -1,6 +1,7 @@
 package levels
 
 import (
+	"context"
 	"math"
 	"sort"
 )
@@ -32,12 +33,18 @@ const (
 // is +Inf when no deviation is found up to 1e6 G (e.g. no hyperfine
 // structure), and 0 when the component has no linear splitting.
 func Components(sp *Species) ([]Component, error) {
-	ts, err := NewTransitionSolver(sp)
+	return ComponentsContext(context.Background(), sp)
+}
+
+// ComponentsContext is Components that stops with ctx.Err() when ctx is
+// cancelled (the linearity scan solves the species at about 80 fields).
+func ComponentsContext(ctx context.Context, sp *Species) ([]Component, error) {
+	ts, err := NewTransitionSolverContext(ctx, sp)
 	if err != nil {
 		return nil, err
 	}
 	var tr Transition
-	if err := ts.Solve(0, &tr); err != nil {
+	if err := ts.SolveContext(ctx, 0, &tr); err != nil {
 		return nil, err
 	}
 	mu, ml := ts.up.Multiplets(), ts.lo.Multiplets()
@@ -80,12 +87,14 @@ func Components(sp *Species) ([]Component, error) {
 		comps[ci].SplitHzPerG = cent(a.s[2], a.sum[2]) - cent(a.s[1], a.sum[1])
 		comps[ci].SplitKmsPerG = SpeedOfLight / 1e3 * comps[ci].SplitHzPerG / sp.Frequency
 	}
-	linearUpTo(ts, comps, index, len(ml))
+	if err := linearUpTo(ctx, ts, comps, index, len(ml)); err != nil {
+		return nil, err
+	}
 	sort.SliceStable(comps, func(i, j int) bool { return comps[i].Offset < comps[j].Offset })
 	return comps, nil
 }
 
-func linearUpTo(ts *TransitionSolver, comps []Component, index []int, nml int) {
+func linearUpTo(ctx context.Context, ts *TransitionSolver, comps []Component, index []int, nml int) error {
 	n := len(comps)
 	done := make([]bool, n)
 	prevB := make([]float64, n)
@@ -110,8 +119,8 @@ func linearUpTo(ts *TransitionSolver, comps []Component, index []int, nml int) {
 		if B > linScanTo*(1+1e-9) {
 			break
 		}
-		if ts.Solve(B, &tr) != nil {
-			return
+		if err := ts.SolveContext(ctx, B, &tr); err != nil {
+			return ctx.Err() // nil for a solve failure: the scan ends there
 		}
 		for i := range s {
 			s[i], sum[i] = [3]float64{}, [3]float64{}
@@ -160,4 +169,5 @@ func linearUpTo(ts *TransitionSolver, comps []Component, index []int, nml int) {
 			prevB[ci], prevD[ci] = B, dev
 		}
 	}
+	return nil
 }

@@ -1,6 +1,7 @@
 package levels
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"sort"
@@ -63,7 +64,11 @@ type block struct {
 }
 
 // NewSolver validates the level and prepares its Hamiltonian.
-func NewSolver(l Level) (*Solver, error) {
+func NewSolver(l Level) (*Solver, error) { return NewSolverContext(context.Background(), l) }
+
+// NewSolverContext is NewSolver that stops with ctx.Err() when ctx is
+// cancelled; it checks between M blocks.
+func NewSolverContext(ctx context.Context, l Level) (*Solver, error) {
 	if err := l.Validate(); err != nil {
 		return nil, err
 	}
@@ -131,9 +136,12 @@ func NewSolver(l Level) (*Solver, error) {
 		s.blocks = append(s.blocks, b)
 	}
 	for bi := range s.blocks {
+		if err := ctx.Err(); err != nil {
+			return nil, err
+		}
 		s.buildBlock(&s.blocks[bi])
 	}
-	if err := s.zeroField(); err != nil {
+	if err := s.zeroField(ctx); err != nil {
 		return nil, err
 	}
 	return s, nil
@@ -266,7 +274,7 @@ func (s *Solver) casimirBlock(b *block, slots int) *mat.SymDense {
 
 // zeroField diagonalizes every block at B = 0, adapts degenerate clusters
 // to F^2 and F1^2, assigns labels and groups states into multiplets.
-func (s *Solver) zeroField() error {
+func (s *Solver) zeroField(ctx context.Context) error {
 	ns := len(s.tj)
 	totParity := 0
 	for _, t := range s.tj {
@@ -275,6 +283,9 @@ func (s *Solver) zeroField() error {
 	totParity &= 1
 	// First pass: eigenvalues, to set the tolerance scale.
 	for bi := range s.blocks {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
 		b := &s.blocks[bi]
 		n := len(b.idx)
 		var eig mat.EigenSym
@@ -290,6 +301,9 @@ func (s *Solver) zeroField() error {
 	}
 	tolE := 1e-9*s.scale + 1e-9
 	for bi := range s.blocks {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
 		b := &s.blocks[bi]
 		n := len(b.idx)
 		f2 := s.casimirBlock(b, ns)
@@ -464,6 +478,12 @@ func (s *Solver) assignF1(b *block, f1exp []float64) {
 // it has the largest overlap (one-to-one, greedy in overlap), and its sign is
 // chosen to make that overlap positive.
 func (s *Solver) Solve(field float64, dst *Structure) error {
+	return s.SolveContext(context.Background(), field, dst)
+}
+
+// SolveContext is Solve that stops with ctx.Err() when ctx is cancelled;
+// it checks between M blocks, and dst is then incomplete.
+func (s *Solver) SolveContext(ctx context.Context, field float64, dst *Structure) error {
 	if math.IsNaN(field) || math.IsInf(field, 0) {
 		return fmt.Errorf("levels: field must be finite, got %g", field)
 	}
@@ -478,6 +498,9 @@ func (s *Solver) Solve(field float64, dst *Structure) error {
 		}
 	}
 	for bi := range s.blocks {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
 		b := &s.blocks[bi]
 		n := len(b.idx)
 		if field == 0 {

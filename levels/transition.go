@@ -1,6 +1,7 @@
 package levels
 
 import (
+	"context"
 	"fmt"
 	"math"
 
@@ -32,15 +33,27 @@ type dipolePair struct {
 // NewTransitionSolver validates the species and prepares both levels and
 // the dipole matrices in the product basis.
 func NewTransitionSolver(sp *Species) (*TransitionSolver, error) {
+	return NewTransitionSolverContext(context.Background(), sp)
+}
+
+// NewTransitionSolverContext is NewTransitionSolver that stops with
+// ctx.Err() when ctx is cancelled.
+func NewTransitionSolverContext(ctx context.Context, sp *Species) (*TransitionSolver, error) {
 	if err := sp.Validate(); err != nil {
 		return nil, err
 	}
-	up, err := NewSolver(sp.Upper)
+	up, err := NewSolverContext(ctx, sp.Upper)
 	if err != nil {
+		if ctx.Err() != nil {
+			return nil, err
+		}
 		return nil, fmt.Errorf("%s: upper level: %w", sp.Name, err)
 	}
-	lo, err := NewSolver(sp.Lower)
+	lo, err := NewSolverContext(ctx, sp.Lower)
 	if err != nil {
+		if ctx.Err() != nil {
+			return nil, err
+		}
 		return nil, fmt.Errorf("%s: lower level: %w", sp.Name, err)
 	}
 	t := &TransitionSolver{sp: sp, up: up, lo: lo, norm: 2*sp.Upper.J + 1}
@@ -117,22 +130,30 @@ func (t *TransitionSolver) Lower() *Solver { return t.lo }
 // storage. Lines are grouped by (upper M block, q) and then by upper and
 // lower state index.
 func (t *TransitionSolver) Solve(field float64, dst *Transition) error {
+	return t.SolveContext(context.Background(), field, dst)
+}
+
+// SolveContext is Solve that stops with ctx.Err() when ctx is cancelled.
+func (t *TransitionSolver) SolveContext(ctx context.Context, field float64, dst *Transition) error {
 	if dst.Upper == nil {
 		dst.Upper = new(Structure)
 	}
 	if dst.Lower == nil {
 		dst.Lower = new(Structure)
 	}
-	if err := t.up.Solve(field, dst.Upper); err != nil {
+	if err := t.up.SolveContext(ctx, field, dst.Upper); err != nil {
 		return err
 	}
-	if err := t.lo.Solve(field, dst.Lower); err != nil {
+	if err := t.lo.SolveContext(ctx, field, dst.Lower); err != nil {
 		return err
 	}
 	dst.Species = t.sp
 	dst.Field = field
 	dst.Lines = dst.Lines[:0]
 	for i := range t.pairs {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
 		p := &t.pairs[i]
 		ub, lb := &t.up.blocks[p.ub], &t.lo.blocks[p.lb]
 		// amp = Vu^T D Vl: eigenvector-weighted dipole elements.
@@ -164,12 +185,18 @@ func (t *TransitionSolver) Solve(field float64, dst *Transition) error {
 // NewTransition solves a species at one field (gauss). For many fields use
 // a TransitionSolver.
 func NewTransition(sp *Species, field float64) (*Transition, error) {
-	t, err := NewTransitionSolver(sp)
+	return NewTransitionContext(context.Background(), sp, field)
+}
+
+// NewTransitionContext is NewTransition that stops with ctx.Err() when
+// ctx is cancelled.
+func NewTransitionContext(ctx context.Context, sp *Species, field float64) (*Transition, error) {
+	t, err := NewTransitionSolverContext(ctx, sp)
 	if err != nil {
 		return nil, err
 	}
 	tr := new(Transition)
-	if err := t.Solve(field, tr); err != nil {
+	if err := t.SolveContext(ctx, field, tr); err != nil {
 		return nil, err
 	}
 	return tr, nil

@@ -31,6 +31,9 @@ func (l Level) Validate() error {
 			return fmt.Errorf("levels: spin %d (%q): g-factor and shielding must be finite", i, s.Name)
 		}
 	}
+	if d, _ := dimOf(l); !(d <= MaxDim) {
+		return fmt.Errorf("levels: the level has %s basis states (2J+1 times 2I+1 of every spin; limit %d)", countText(d), MaxDim)
+	}
 	if math.IsNaN(l.G) || math.IsInf(l.G, 0) {
 		return fmt.Errorf("levels: rotational g-factor must be finite")
 	}
@@ -98,6 +101,9 @@ func (sp *Species) Validate() error {
 		if sp.Upper.Spins[i].I != sp.Lower.Spins[i].I {
 			return fmt.Errorf("%s: spin %d has I = %g in the upper level but %g in the lower", sp.Name, i, sp.Upper.Spins[i].I, sp.Lower.Spins[i].I)
 		}
+	}
+	if err := sp.CheckSize(); err != nil {
+		return fmt.Errorf("%s: %w", sp.Name, err)
 	}
 	ju, jl := sp.Upper.J, sp.Lower.J
 	d := ju - jl

@@ -50,6 +50,10 @@ type Session struct {
 	Workers  int    `json:"workers,omitempty"`
 	Shard    string `json:"shard,omitempty"`
 	Ran      int    `json:"models_run"`
+	// Stopped says why a session ended early: "interrupted" (a signal) or
+	// "write error: ..."; empty when it ran to its end. A session killed
+	// outright records nothing; the next one counts its models.
+	Stopped string `json:"stopped,omitempty"`
 }
 
 // ModelStatus is the state of one model.

@@ -1,6 +1,7 @@
 package runs
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -62,6 +63,12 @@ type PlotOptions struct {
 // the line, i.e. when V = A dI/dv has A > 0 (see signOfV), so that the
 // field direction shows.
 func Plot(dir string, opt PlotOptions) ([]string, error) {
+	return PlotContext(context.Background(), dir, opt)
+}
+
+// PlotContext is Plot that stops before the next figure when ctx is
+// cancelled and returns ctx.Err(); the figures drawn so far stay.
+func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, error) {
 	formats := opt.Formats
 	if len(formats) == 0 {
 		formats = []string{"png", "svg"}
@@ -89,6 +96,9 @@ func Plot(dir string, opt PlotOptions) ([]string, error) {
 	removeOwnFigures(pd, formats)
 	var out []string
 	save := func(fig *figures.Stack, name string) error {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
 		if !opt.Titles {
 			fig.Title = ""
 		}

@@ -1,7 +1,10 @@
 package runs
 
 import (
+	"bytes"
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
@@ -104,6 +107,15 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	if opt.Shard.N > 1 && (opt.Shard.K < 1 || opt.Shard.K > opt.Shard.N) {
 		return nil, inputErrorf("bad shard %d/%d", opt.Shard.K, opt.Shard.N)
 	}
+	if dir == "" {
+		return nil, inputErrorf("no run directory given (set output.dir in the config or use --out)")
+	}
+	// One process per directory, for the whole session.
+	lock, err := LockDir(dir, "run")
+	if err != nil {
+		return nil, err
+	}
+	defer lock.Unlock()
 	l := newLayout(st)
 	now := time.Now()
 	man, err := prepareDir(st, dir, l, opt, now)
@@ -111,8 +123,12 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		return nil, err
 	}
 	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, SummaryName), Manifest: filepath.Join(dir, "manifest.json")}
+	if lock.Stale != "" {
+		rep.Notes = append(rep.Notes, "took over the lock left by "+lock.Stale+", which no longer runs")
+	}
 
-	// The models/ files are the record of what is finished.
+	// The models/ files are the record of what is finished; a file that
+	// fails its check is recomputed.
 	var todo []int
 	for i := range st.Models {
 		m := &st.Models[i]
@@ -124,12 +140,19 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 			continue
 		}
 		rep.InShard++
-		if status, msg := finished(dir, m.Name); status == StatusDone {
+		status, msg := finished(dir, m.Name)
+		switch status {
+		case StatusDone:
 			ms.Status, ms.Error = StatusDone, ""
 			rep.Skipped++
 			continue
-		} else if status == StatusFailed {
+		case StatusFailed:
 			ms.Status, ms.Error = StatusFailed, msg
+		case statusDamaged:
+			ms.Status, ms.Error = StatusPending, ""
+			rep.Notes = append(rep.Notes, msg+"; computing the model again")
+		default:
+			ms.Status, ms.Error = StatusPending, ""
 		}
 		todo = append(todo, i)
 	}
@@ -144,6 +167,10 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		return nil, err
 	}
 
+	// A write error stops the study: models still running are cancelled
+	// and stay pending, finished ones are kept.
+	runCtx, stopRun := context.WithCancel(ctx)
+	defer stopRun()
 	prog := newProgress(opt.Progress, len(todo), rep.Skipped, rep.InShard)
 	type result struct {
 		i        int
@@ -161,28 +188,34 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		go func() {
 			defer wg.Done()
 			for i := range jobs {
+				if runCtx.Err() != nil {
+					results <- result{i: i, canceled: true}
+					continue
+				}
 				t0 := time.Now()
-				warn, err := runOne(ctx, st, l, dir, &st.Models[i], opt.Model)
+				warn, err := runOne(runCtx, st, l, dir, &st.Models[i], opt.Model)
 				r := result{i: i, err: err, warnings: warn, secs: time.Since(t0).Seconds()}
-				if err != nil && ctx.Err() != nil {
-					var we *writeError
-					r.canceled = !errors.As(err, &we)
+				var we *writeError
+				if errors.As(err, &we) {
+					stopRun() // at once, before another model starts
+				} else if err != nil && runCtx.Err() != nil {
+					r.canceled = true
 				}
 				results <- r
 			}
 		}()
 	}
 	go func() {
-		// Hand out models until done or cancelled; models never handed out
+		// Hand out models until done or stopped; models never handed out
 		// stay pending.
 		defer close(jobs)
 		for _, i := range todo {
-			if ctx.Err() != nil {
+			if runCtx.Err() != nil {
 				return
 			}
 			select {
 			case jobs <- i:
-			case <-ctx.Done():
+			case <-runCtx.Done():
 				return
 			}
 		}
@@ -193,14 +226,19 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	for r := range results {
 		ms := &man.Models[r.i]
 		name := st.Models[r.i].Name
+		var we *writeError
 		switch {
 		case r.canceled:
 			ms.Status, ms.Error = StatusPending, ""
-		case r.err != nil:
-			var we *writeError
-			if errors.As(r.err, &we) && writeErr == nil {
+		case errors.As(r.err, &we):
+			// Nothing of this model is on disk (or only its spectrum,
+			// which a resume overwrites): it stays pending.
+			ms.Status, ms.Error = StatusPending, ""
+			if writeErr == nil {
 				writeErr = we.err
+				stopRun()
 			}
+		case r.err != nil:
 			ms.Status, ms.Error = StatusFailed, r.err.Error()
 			rep.Failures = append(rep.Failures, name+": "+r.err.Error())
 			sess.Ran++
@@ -212,15 +250,16 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 				rep.Warnings = append(rep.Warnings, Warning{name, r.i, w})
 			}
 		}
-		if !r.canceled {
+		if !r.canceled && we == nil {
 			prog.done(name, r.err, r.secs)
 		}
 		// The manifest is informative (models/ is the record), so it is
 		// rewritten at most every manifestEvery, not after every model.
-		if time.Since(lastWrite) >= manifestEvery {
+		if time.Since(lastWrite) >= manifestEvery && writeErr == nil {
 			man.update()
-			if err := man.write(dir); err != nil && writeErr == nil {
+			if err := man.write(dir); err != nil {
 				writeErr = err
+				stopRun()
 			}
 			lastWrite = time.Now()
 		}
@@ -247,30 +286,42 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	}
 	rep.Validity = vs
 	// Record the models' status before drawing: figures are derived from
-	// the tables, and a failure to draw must not hide finished models.
+	// the tables, and a failure to draw must not hide finished models. The
+	// manifest never calls a study complete whose summary.csv is not on
+	// disk.
 	man.update()
 	end := stamp(time.Now())
 	sess.Finished = end
-	if ctx.Err() != nil {
+	// A signal that arrives once every model of the session is finished
+	// interrupts nothing but the figures.
+	interrupted := ctx.Err() != nil && rep.Pending > 0
+	switch {
+	case writeErr != nil:
 		man.Status = StudyInterrupted
-	} else if man.Status != StudyIncomplete {
+		sess.Stopped = "write error: " + writeErr.Error()
+	case interrupted:
+		man.Status = StudyInterrupted
+		sess.Stopped = "interrupted"
+	case man.Status != StudyIncomplete:
 		man.Finished = end
 	}
 	if err := man.write(dir); err != nil && writeErr == nil {
 		writeErr = err
 	}
-	if ctx.Err() == nil && writeErr == nil && st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
-		figs, err := Plot(dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
-		rep.Figures = figs
-		if err != nil {
-			writeErr = &PlotError{err}
-		}
-	}
 	if writeErr != nil {
 		return rep, writeErr
 	}
-	if ctx.Err() != nil {
+	if interrupted {
 		return rep, ctx.Err()
+	}
+	if st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
+		// The tables are complete here: an interruption while drawing
+		// leaves a complete run with some figures missing (PlotError).
+		figs, err := PlotContext(ctx, dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
+		rep.Figures = figs
+		if err != nil {
+			return rep, &PlotError{err}
+		}
 	}
 	return rep, nil
 }
@@ -304,8 +355,14 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 		return nil, err // cancelled: leave no record, the model stays pending
 	}
 	if err == nil {
+		tr.Warnings = append(tr.Warnings, checkGrid(ctx, m.Params, tr)...)
+	}
+	var sum string
+	if err == nil {
+		h := sha256.New()
 		if e := writeAtomic(filepath.Join(dir, "spectra", m.Name+".ecsv"), func(w io.Writer) error {
-			return writeSpectrum(w, st, m, tr)
+			h.Reset() // the checksum is of what ends up in the file
+			return writeSpectrum(io.MultiWriter(w, h), st, m, tr)
 		}); e != nil {
 			var ce *contentError
 			if !errors.As(e, &ce) {
@@ -313,9 +370,10 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 			}
 			err = ce.err // bad model output: the model failed
 		}
+		sum = hex.EncodeToString(h.Sum(nil))
 	}
 	if e := writeAtomic(filepath.Join(dir, "models", m.Name+".ecsv"), func(w io.Writer) error {
-		return writeModelTable(w, st, l, m, tr, err)
+		return writeModelTable(w, st, l, m, tr, sum, err)
 	}); e != nil {
 		return nil, &writeError{e}
 	}
@@ -336,33 +394,61 @@ func modelWarnings(tr *transfer.Trajectory) []string {
 	return out
 }
 
-// finished reads the status recorded in models/<name>.ecsv: done only if
-// the spectrum is there too.
+// statusDamaged marks a models/ file, or the spectrum it vouches for,
+// that fails its check (truncated, edited, wrong checksum).
+const statusDamaged = "damaged"
+
+// finished reads the status recorded in models/<name>.ecsv. A model is
+// done only if that file parses, has as many rows as it says, and the
+// spectrum's SHA-256 matches the one it records; otherwise it reports
+// statusDamaged with the reason.
 func finished(dir, name string) (status, msg string) {
-	t, err := ecsv.ReadFile(filepath.Join(dir, "models", name+".ecsv"))
-	if err != nil {
+	mf := filepath.Join(dir, "models", name+".ecsv")
+	if _, err := os.Stat(mf); err != nil {
 		return StatusPending, ""
+	}
+	t, err := ecsv.ReadFile(mf)
+	if err != nil {
+		return statusDamaged, fmt.Sprintf("%s does not read back (%v)", mf, err)
 	}
 	s, _ := t.MetaValue("status")
 	switch s {
 	case StatusDone:
-		if _, err := os.Stat(filepath.Join(dir, "spectra", name+".ecsv")); err != nil {
+		if n, ok := t.MetaValue("checkpoints"); ok && n != strconv.Itoa(len(t.Rows)) {
+			return statusDamaged, fmt.Sprintf("%s has %d rows, it records %s", mf, len(t.Rows), n)
+		}
+		sf := filepath.Join(dir, "spectra", name+".ecsv")
+		data, err := os.ReadFile(sf)
+		if err != nil {
 			return StatusPending, ""
+		}
+		if want, ok := t.MetaValue("spectrum_sha256"); ok {
+			sum := sha256.Sum256(data)
+			if hex.EncodeToString(sum[:]) != want {
+				return statusDamaged, fmt.Sprintf("%s does not match the checksum in %s", sf, mf)
+			}
+		} else if _, err := ecsv.Read(bytes.NewReader(data), sf); err != nil {
+			return statusDamaged, fmt.Sprintf("%s does not read back (%v)", sf, err)
 		}
 		return StatusDone, ""
 	case StatusFailed:
 		e, _ := t.MetaValue("error")
 		return StatusFailed, e
 	}
-	return StatusPending, ""
+	return statusDamaged, fmt.Sprintf("%s records no status", mf)
 }
 
 // prepareDir creates a fresh run directory or checks one to resume. It
-// never modifies an existing directory it refuses.
+// never modifies an existing directory it refuses. A fresh directory is
+// made complete (config.toml, manifest.json, models/, spectra/) under a
+// temporary name and renamed into place, so a kill at any moment leaves
+// either no directory or one that --resume continues. The caller holds
+// the directory's lock.
 func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Time) (*Manifest, error) {
 	if dir == "" {
 		return nil, inputErrorf("no run directory given (set output.dir in the config or use --out)")
 	}
+	removeTempDirs(dir)
 	fi, err := os.Stat(dir)
 	exists := err == nil
 	if exists && !fi.IsDir() {
@@ -376,7 +462,7 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 				return nil, inputErrorf("%s already holds a run (manifest.json, status %s); use --resume to continue it, or --out to write elsewhere", dir, old.Status)
 			}
 			if old.ConfigHash != st.Hash {
-				return nil, inputErrorf("cannot resume %s: the config changed since the run started (config hash %.12s... in manifest.json, %.12s... now); resuming would mix results of two configs. Restore the config or start a new run with --out", dir, old.ConfigHash, st.Hash)
+				return nil, inputErrorf("cannot resume %s: the config changed since the run started (config hash %.12s... in manifest.json, %.12s... now); resuming would mix results of two configs. Restore the config (the run's own copy is %s) or start a new run with --out", dir, old.ConfigHash, st.Hash, filepath.Join(dir, "config.toml"))
 			}
 			if old.Shard != opt.Shard.String() {
 				return nil, inputErrorf("cannot resume %s: it holds shard %q, not %q; resume with the same --shard", dir, old.Shard, opt.Shard.String())
@@ -386,6 +472,7 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 				return nil, inputErrorf("cannot resume %s: manifest.json lists %d models, the config expands to %d", dir, len(old.Models), len(fresh.Models))
 			}
 			fresh.Started, fresh.Sessions = old.Started, old.Sessions
+			countKilledSession(dir, old, fresh)
 			for _, sub := range []string{"models", "spectra"} {
 				if err := os.MkdirAll(filepath.Join(dir, sub), 0o755); err != nil {
 					return nil, err
@@ -396,23 +483,148 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 		case !errors.Is(merr, os.ErrNotExist):
 			return nil, inputErrorf("%s: %v", dir, merr)
 		}
-		ents, _ := os.ReadDir(dir)
-		if len(ents) > 0 {
+		if !startedHere(dir, st.Resolved) {
 			return nil, inputErrorf("%s exists, is not empty and holds no run (no manifest.json); choose another --out", dir)
 		}
 	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
-		return nil, err
+	man := newManifest(st, l, opt.Shard, now)
+	fill := func(d string) error {
+		if err := writeFileAtomic(filepath.Join(d, "config.toml"), st.Resolved); err != nil {
+			return err
+		}
+		return man.write(d) // last: the manifest marks a run directory
 	}
-	for _, sub := range []string{"models", "spectra"} {
-		if err := os.MkdirAll(filepath.Join(dir, sub), 0o755); err != nil {
+	if exists {
+		// An existing empty directory (perhaps the working directory) is
+		// filled in place: replacing it could pull it from under a
+		// process that stands in it.
+		for _, sub := range []string{"models", "spectra"} {
+			if err := os.MkdirAll(filepath.Join(dir, sub), 0o755); err != nil {
+				return nil, err
+			}
+		}
+		if err := fill(dir); err != nil {
 			return nil, err
 		}
+		return man, nil
 	}
-	if err := writeFileAtomic(filepath.Join(dir, "config.toml"), st.Resolved); err != nil {
+	if err := createDir(dir, fill); err != nil {
 		return nil, err
 	}
-	return newManifest(st, l, opt.Shard, now), nil
+	return man, nil
+}
+
+// startedHere reports whether dir is empty, or holds only what a start of
+// this same run leaves before its manifest (filling an existing
+// directory): config.toml equal to resolved, empty models/ and spectra/,
+// temporary files.
+func startedHere(dir string, resolved []byte) bool {
+	ents, err := os.ReadDir(dir)
+	if err != nil {
+		return false
+	}
+	for _, e := range ents {
+		n := e.Name()
+		switch {
+		case strings.Contains(n, tmpMarker):
+		case n == "config.toml":
+			data, err := os.ReadFile(filepath.Join(dir, n))
+			if err != nil || !bytes.Equal(data, resolved) {
+				return false
+			}
+		case (n == "models" || n == "spectra") && e.IsDir():
+			sub, _ := os.ReadDir(filepath.Join(dir, n))
+			for _, f := range sub {
+				if !strings.Contains(f.Name(), tmpMarker) {
+					return false
+				}
+			}
+		default:
+			return false
+		}
+	}
+	return true
+}
+
+// tmpDirMarker names directories under construction, beside their
+// destination: ".NAME.tmp-123".
+const tmpDirMarker = ".tmp-"
+
+// createDir builds a directory under a temporary name beside dir, with
+// models/ and spectra/ and whatever fill writes, and renames it to dir (an
+// empty dir is replaced).
+func createDir(dir string, fill func(tmp string) error) error {
+	abs, err := filepath.Abs(dir)
+	if err != nil {
+		return err
+	}
+	parent, base := filepath.Split(abs)
+	if err := os.MkdirAll(parent, 0o755); err != nil {
+		return err
+	}
+	tmp, err := os.MkdirTemp(parent, "."+base+tmpDirMarker)
+	if err != nil {
+		return err
+	}
+	err = os.Chmod(tmp, 0o755)
+	for _, sub := range []string{"models", "spectra"} {
+		if err == nil {
+			err = os.Mkdir(filepath.Join(tmp, sub), 0o755)
+		}
+	}
+	if err == nil {
+		err = fill(tmp)
+	}
+	if err == nil {
+		if fi, serr := os.Stat(dir); serr == nil && fi.IsDir() {
+			os.Remove(dir) // empty (checked by the caller); rename needs it gone on some systems
+		}
+		err = os.Rename(tmp, dir)
+	}
+	if err != nil {
+		os.RemoveAll(tmp)
+		return fmt.Errorf("creating %s: %w", dir, err)
+	}
+	return nil
+}
+
+// removeTempDirs removes directories left under construction by a killed
+// process (the caller holds the lock, so none is in use).
+func removeTempDirs(dir string) {
+	abs, err := filepath.Abs(dir)
+	if err != nil {
+		return
+	}
+	parent, base := filepath.Split(abs)
+	ents, _ := os.ReadDir(parent)
+	for _, e := range ents {
+		if e.IsDir() && strings.HasPrefix(e.Name(), "."+base+tmpDirMarker) {
+			os.RemoveAll(filepath.Join(parent, e.Name()))
+		}
+	}
+}
+
+// countKilledSession adds to the last recorded session the models it
+// finished after its last manifest update: a session killed outright
+// (SIGKILL, node failure) could not record them, but its models/ files
+// did.
+func countKilledSession(dir string, old, fresh *Manifest) {
+	if len(fresh.Sessions) == 0 {
+		return
+	}
+	last := &fresh.Sessions[len(fresh.Sessions)-1]
+	if last.Finished != "" {
+		return
+	}
+	for _, ms := range old.Models {
+		if ms.Status != StatusPending {
+			continue
+		}
+		if st, _ := finished(dir, ms.Name); st == StatusDone || st == StatusFailed {
+			last.Ran++
+		}
+	}
+	last.Stopped = "killed"
 }
 
 // writeSummary concatenates the rows of the finished models in index

@@ -330,9 +330,24 @@ func TestShardMerge(t *testing.T) {
 	if ja != jb {
 		t.Errorf("manifests differ beyond times:\n%s\n%s", ja, jb)
 	}
-	if _, err := Merge(dst, shards...); err == nil {
-		t.Error("merge into a non-empty directory accepted")
+	// Repeating a merge changes nothing; a directory that holds no run
+	// is refused.
+	if _, err := Merge(dst, shards...); err != nil {
+		t.Errorf("repeated merge: %v", err)
 	}
+	sameTables(t, tables(t, ref), tables(t, dst), "merged twice vs unsharded")
+	junk := filepath.Join(root, "junk")
+	os.MkdirAll(junk, 0o755)
+	os.WriteFile(filepath.Join(junk, "notes.txt"), []byte("mine"), 0o644)
+	if _, err := Merge(junk, shards...); err == nil {
+		t.Error("merge into a non-empty directory without a run accepted")
+	}
+	// The partial merge is completed by merging the missing shards into
+	// it, as the command suggests.
+	if _, err := Merge(filepath.Join(root, "part"), shards[2:]...); err != nil {
+		t.Fatalf("merging the missing shards into the partial merge: %v", err)
+	}
+	sameTables(t, tables(t, ref), tables(t, filepath.Join(root, "part")), "partial merge completed")
 	other := t.TempDir()
 	execute(t, study(t, strings.Replace(cfg2x3, "10 deg", "12 deg", 1)), other, Options{Shard: Shard{1, 4}})
 	if _, err := Merge(filepath.Join(root, "bad"), shards[0], other); err == nil {

@@ -201,7 +201,7 @@ const (
 
 // writeModelTable renders the summary rows of one model (none if it
 // failed) with its status in the metadata.
-func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model, tr *transfer.Trajectory, runErr error) error {
+func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model, tr *transfer.Trajectory, spectrumSum string, runErr error) error {
 	meta := []ecsv.Meta{{Key: "model", Value: m.Name}, {Key: "index", Value: strconv.Itoa(m.Index)}, {Key: "species", Value: m.Species}}
 	if runErr != nil {
 		meta = append(meta, ecsv.Meta{Key: "status", Value: StatusFailed}, ecsv.Meta{Key: "error", Value: runErr.Error()})
@@ -212,6 +212,9 @@ func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model,
 		if !math.IsInf(tr.CoherentFrom, 1) {
 			meta = append(meta, ecsv.Meta{Key: "density_matrix_from_saturation", Value: strconv.FormatFloat(tr.CoherentFrom, 'g', -1, 64)})
 		}
+		// What a resume checks before it keeps the model.
+		meta = append(meta, ecsv.Meta{Key: "checkpoints", Value: strconv.Itoa(len(tr.Checkpoints))},
+			ecsv.Meta{Key: "spectrum_sha256", Value: spectrumSum})
 		for i, w := range modelWarnings(tr) {
 			meta = append(meta, ecsv.Meta{Key: "warning" + strconv.Itoa(i+1), Value: w})
 		}

@@ -15,7 +15,7 @@ func Run(ctx context.Context, p Params) (*Trajectory, error) {
 	if err := validateSpecies(p.Species); err != nil {
 		return nil, err
 	}
-	tr, err := levels.NewTransition(p.Species, p.Field)
+	tr, err := levels.NewTransitionContext(ctx, p.Species, p.Field)
 	if err != nil {
 		return nil, fmt.Errorf("transfer: species %q at %g G: %w", p.Species.Name, p.Field, err)
 	}

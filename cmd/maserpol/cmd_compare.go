@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"math"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -40,10 +41,19 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	if *top < 1 {
 		return report(stderr, usagef("--top %d: allowed >= 1", *top))
 	}
+	if err := checkUnit("velocity-unit", *vunit, units.Velocity); err != nil {
+		return report(stderr, err)
+	}
 	if *tablePath != "" {
 		if _, err := checkTablePath("table", *tablePath); err != nil {
 			return report(stderr, err)
 		}
+	}
+	if err := checkOutput("table", *tablePath, false); err != nil {
+		return report(stderr, err)
+	}
+	if err := checkOutput("plot", *plotPath, true); err != nil {
+		return report(stderr, err)
 	}
 	var opt interpret.FitOptions
 	if *maxShift != "" {
@@ -54,6 +64,9 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	obs, err := interpret.ReadObserved(pos[1], interpret.ReadOptions{VelocityUnit: *vunit, IntensityUnit: *iunit, Stokes: *stokes})
 	if err != nil {
 		return report(stderr, usagef("%v", err))
+	}
+	if n := len(obs.Velocity); n > maxObservedChannels {
+		return report(stderr, usagef("%s: %d channels; at most %d can be compared (the channel limit of a model): average channels or cut the velocity range to the line", pos[1], n, maxObservedChannels))
 	}
 	models, warn, err := interpret.ReadRunDir(pos[0])
 	if err != nil {
@@ -83,11 +96,18 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 		fmt.Fprintf(stderr, "maserpol: wrote %s\n", *tablePath)
 	}
 	if *plotPath != "" {
+		shown := obs
+		if k := (len(obs.Velocity) + maxPlotPoints - 1) / maxPlotPoints; k > 1 {
+			// A figure cannot show more points than it has pixels: draw
+			// block averages (errors shrink by sqrt(k)).
+			shown = reduced(obs, k)
+			fmt.Fprintf(stderr, "maserpol: note: the figure shows %s averaged per point (%d channels)\n", fmtCount(k, "channel"), len(obs.Velocity))
+		}
 		title := ""
 		if *titles {
 			title = "best models over " + figures.Escape(obs.File)
 		}
-		paths, err := saveFigure(interpret.CompareFigure(obs, rk[:min(*top, len(rk))], title), *plotPath)
+		paths, err := saveFigure(interpret.CompareFigure(shown, rk[:min(*top, len(rk))], title), *plotPath)
 		if err != nil {
 			return report(stderr, err)
 		}
@@ -194,4 +214,20 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 		fmt.Fprintf(w, "Scale: held >= 0 (a maser line is in emission); in %d of the %d rows shown it is 0: no emission of the model fits within the allowed shifts (shift undetermined, \"-\").\n", zero, shown)
 	}
 	fmt.Fprintf(w, "A good chi-square does not exclude other models outside the run's grid, nor mechanisms the model lacks (maserpol diagnose).\n")
+}
+
+// reduced returns obs averaged in blocks of k channels, for drawing.
+func reduced(obs *interpret.Observed, k int) *interpret.Observed {
+	r := *obs
+	r.Velocity = averaged(obs.Velocity, k)
+	for i := range r.Stokes {
+		r.Stokes[i] = averaged(obs.Stokes[i], k)
+		if e := averaged(obs.Err[i], k); e != nil {
+			for j := range e {
+				e[j] /= math.Sqrt(float64(k))
+			}
+			r.Err[i] = e
+		}
+	}
+	return &r
 }

@@ -55,11 +55,22 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		fs.Usage()
 		return exitInput
 	}
+	if err := checkWorkers("workers", workers); err != nil {
+		return report(stderr, err)
+	}
 	for _, t := range []struct{ flag, path string }{{"table", *tablePath}, {"details", *details}} {
 		if t.path != "" {
 			if _, err := checkTablePath(t.flag, t.path); err != nil {
 				return report(stderr, err)
 			}
+		}
+	}
+	for _, o := range []struct {
+		name, path string
+		figure     bool
+	}{{"table", *tablePath, false}, {"details", *details, false}, {"plot", *plotPath, true}} {
+		if err := checkOutput(o.name, o.path, o.figure); err != nil {
+			return report(stderr, err)
 		}
 	}
 	sp, err := species.Resolve(pos[0])
@@ -138,6 +149,9 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		if err != nil || b == 0 {
 			return report(stderr, usagef("--field %q: need a non-zero field (allowed units: %s)", *field, units.Allowed(units.Field)))
 		}
+		if err := checkField("field", *field, b); err != nil {
+			return report(stderr, err)
+		}
 		base.Field = b
 	}
 	satFrom := ""
@@ -170,6 +184,13 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 	}
 	if err := m.Validate(); err != nil {
 		return report(stderr, usagef("%v", err))
+	}
+	satFlag := "saturation"
+	if *sat == "" {
+		satFlag = "tb and --domega"
+	}
+	if err := checkSaturation(satFlag, m.SatHi); err != nil {
+		return report(stderr, err)
 	}
 	grid := interpret.DefaultGrid()
 	if *quick {

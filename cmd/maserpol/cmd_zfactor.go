@@ -44,19 +44,31 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 		fs.Usage()
 		return exitInput
 	}
+	if err := checkWorkers("workers", workers); err != nil {
+		return report(stderr, err)
+	}
 	if *tablePath != "" {
 		if _, err := checkTablePath("table", *tablePath); err != nil {
 			return report(stderr, err)
 		}
+	}
+	if err := checkOutput("table", *tablePath, false); err != nil {
+		return report(stderr, err)
+	}
+	if err := checkOutput("plot", *plotPath, true); err != nil {
+		return report(stderr, err)
+	}
+	if !(*satMax > 1e-3) {
+		return report(stderr, usagef("--saturation %g: allowed > 1e-3 (R/Gamma)", *satMax))
+	}
+	if err := checkSaturation("saturation", *satMax); err != nil {
+		return report(stderr, err)
 	}
 	sp, err := species.Resolve(pos[0])
 	if err != nil {
 		return report(stderr, err)
 	}
 	base := transfer.Params{Species: sp, Saturation: *satMax, FirstCheckpoint: 1e-3, CheckpointsPerDecade: 2}
-	if !(*satMax > 1e-3) {
-		return report(stderr, usagef("--saturation %g: allowed > 1e-3 (R/Gamma)", *satMax))
-	}
 	vs, vname := *doppler, "doppler"
 	if *fwhm != "" {
 		vs, vname = *fwhm, "fwhm"
@@ -78,6 +90,9 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 	if *b0 != "" {
 		if spec.B0, err = units.ParsePlain(*b0, units.Field, "G"); err != nil || !(spec.B0 > 0) {
 			return report(stderr, usagef("--b0 %q: need a field > 0 (allowed units: %s)", *b0, units.Allowed(units.Field)))
+		}
+		if err := checkField("b0", *b0, spec.B0); err != nil {
+			return report(stderr, err)
 		}
 	}
 	th, err := parseAngleList(*thetas)

@@ -57,7 +57,7 @@ func cmdDemo(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		dir := filepath.Join(*out, strings.TrimSuffix(name, ".toml"))
 		fmt.Fprintf(stdout, "\nconfig: %s (%d models, species %s)\n", cfg, len(st.Models), st.Models[0].Species)
 		// Resume makes a repeated demo finish instantly from its own results.
-		code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: true, Titles: *titles}, stdout, stderr)
+		code, _ := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: true, Titles: *titles}, stdout, stderr)
 		if code != exitOK {
 			if _, err := runs.ReadManifest(dir); err == nil && ctx.Err() == nil {
 				fmt.Fprintf(stderr, "maserpol: (remove %s to run the demo again)\n", dir)

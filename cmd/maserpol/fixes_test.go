@@ -77,10 +77,26 @@ func TestPartialMergeFails(t *testing.T) {
 	if code != exitFailure || !strings.Contains(e, "m0001, m0003, m0005") || !strings.Contains(e, "--resume --out "+dst) {
 		t.Errorf("partial merge: exit %d, want 1 naming the missing models and how to finish\n%s", code, e)
 	}
-	// The hint works: resuming in the merged directory finishes the study.
-	if code, out, e := maserpol(t, "run", cfg, "--resume", "--out", dst); code != 0 || !strings.Contains(out, "3 computed now, 3 finished before") {
+	// Both hints work. Resuming in the merged directory, with the
+	// directory's own config.toml as the hint says, finishes the study.
+	hint := "maserpol run " + filepath.Join(dst, "config.toml") + " --resume --out " + dst
+	if !strings.Contains(e, hint) {
+		t.Errorf("partial merge hint %q missing:\n%s", hint, e)
+	}
+	if code, out, e := maserpol(t, "run", filepath.Join(dst, "config.toml"), "--resume", "--out", dst); code != 0 || !strings.Contains(out, "3 computed now, 3 finished before") {
 		t.Errorf("resume of a partial merge: exit %d\n%s\n%s", code, out, e)
 	}
+	// Merging the missing shard into the same destination finishes it.
+	dst2 := filepath.Join(tmp, "merged2")
+	maserpol(t, "merge", dst2, s1)
+	s2 := filepath.Join(tmp, "s2")
+	if code, _, e := maserpol(t, "run", cfg, "--shard", "2/2", "--out", s2); code != 0 {
+		t.Fatalf("shard 2: exit %d\n%s", code, e)
+	}
+	if code, out, e := maserpol(t, "merge", dst2, s2); code != 0 || !strings.Contains(out, "6 done, 0 failed, 0 pending") {
+		t.Errorf("merging the missing shard into the partial merge: exit %d\n%s\n%s", code, out, e)
+	}
+	equalMaps(t, tablesOf(snapshot(t, dst)), tablesOf(snapshot(t, dst2)), "merge completed by a shard vs by resume")
 }
 
 func TestHelpUsesDoubleDash(t *testing.T) {

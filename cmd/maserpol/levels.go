@@ -86,7 +86,11 @@ func cmdLevels(ctx context.Context, args []string, stdout, stderr io.Writer) int
 		if w := sp.UnverifiedWarning(); w != "" {
 			fmt.Fprintf(stderr, "maserpol: warning: %s (%s)\n", w, names[k])
 		}
-		lt, err := solveLevels(sp, fields, unit)
+		lt, err := solveLevels(ctx, sp, fields, unit)
+		if errors.Is(err, context.Canceled) {
+			fmt.Fprintln(stderr, "maserpol: interrupted")
+			return exitFailure
+		}
 		if err != nil {
 			return report(stderr, fmt.Errorf("species %s: %w", names[k], err))
 		}
@@ -278,8 +282,8 @@ type lineRow struct {
 	offsetKHz, streng float64
 }
 
-func solveLevels(sp *levels.Species, fields []float64, unit string) (*levelTables, error) {
-	comps, err := levels.Components(sp)
+func solveLevels(ctx context.Context, sp *levels.Species, fields []float64, unit string) (*levelTables, error) {
+	comps, err := levels.ComponentsContext(ctx, sp)
 	if err != nil {
 		return nil, err
 	}
@@ -290,7 +294,10 @@ func solveLevels(sp *levels.Species, fields []float64, unit string) (*levelTable
 	lt := &levelTables{sp: sp, comps: comps, fields: fields, unit: unit}
 	var tr levels.Transition
 	for _, b := range fields {
-		if err := ts.Solve(b, &tr); err != nil {
+		if err := ts.SolveContext(ctx, b, &tr); err != nil {
+			if ctx.Err() != nil {
+				return nil, ctx.Err()
+			}
 			return nil, fmt.Errorf("at %s: %w", fieldText(b, unit), err)
 		}
 		var st [2][]stateRow

@@ -48,8 +48,8 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if *out != "" {
 		dir = *out
 	}
-	code := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: *resume, Shard: sh, NoPlots: *noPlots, Titles: *titles}, stdout, stderr)
-	if code == exitFailure && ctx.Err() != nil {
+	code, interrupted := runStudy(ctx, st, dir, runs.Options{Workers: *workers, Resume: *resume, Shard: sh, NoPlots: *noPlots, Titles: *titles}, stdout, stderr)
+	if interrupted {
 		hint := "maserpol run " + pos[0] + " --resume"
 		if *out != "" {
 			hint += " --out " + *out
@@ -63,8 +63,10 @@ func cmdRun(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 }
 
 // runStudy executes a parsed study and reports where everything went. It
-// is shared by run and demo.
-func runStudy(ctx context.Context, st *config.Study, dir string, opt runs.Options, stdout, stderr io.Writer) int {
+// is shared by run and demo. interrupted is true when models were left
+// pending by a signal (an interruption while drawing the figures of a
+// complete run is not one).
+func runStudy(ctx context.Context, st *config.Study, dir string, opt runs.Options, stdout, stderr io.Writer) (code int, interrupted bool) {
 	studyWarnings(stderr, st)
 	opt.Progress = stderr
 	rep, err := runs.Execute(ctx, st, dir, opt)
@@ -79,21 +81,30 @@ func runStudy(ctx context.Context, st *config.Study, dir string, opt runs.Option
 		printReport(stdout, rep)
 	}
 	if err != nil {
-		if errors.Is(err, context.Canceled) {
-			return exitFailure
-		}
 		var pe *runs.PlotError
-		if errors.As(err, &pe) {
+		switch {
+		case errors.As(err, &pe) && errors.Is(err, context.Canceled):
+			fmt.Fprintf(stderr, "maserpol: interrupted while drawing figures; the run itself is complete (tables and manifest.json). Draw the figures with:\n  maserpol plot %s\n", dir)
+			return exitFailure, false
+		case errors.As(err, &pe):
 			fmt.Fprintf(stderr, "maserpol: %v\nmaserpol: the tables and manifest.json are complete; redraw the figures with: maserpol plot %s\n", err, dir)
-			return exitFailure
+			return exitFailure, false
+		case errors.Is(err, context.Canceled):
+			return exitFailure, true
 		}
-		return report(stderr, err)
+		var ie *runs.InputError
+		if rep != nil && !errors.As(err, &ie) {
+			// A write error stopped the study; what finished is kept.
+			fmt.Fprintf(stderr, "maserpol: stopped: %v\nmaserpol: finished models are kept in %s; free space or fix the cause, then continue with --resume\n", err, dir)
+			return exitFailure, false
+		}
+		return report(stderr, err), false
 	}
 	if rep.Failed > 0 {
 		fmt.Fprintf(stderr, "maserpol: %d of %s failed (see manifest.json); maserpol run --resume retries them\n", rep.Failed, plural(rep.InShard, "model", "models"))
-		return exitFailure
+		return exitFailure, false
 	}
-	return exitOK
+	return exitOK, false
 }
 
 func printReport(w io.Writer, rep *runs.Report) {
@@ -159,6 +170,11 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if err != nil {
 		return report(stderr, err)
 	}
+	lock, err := runs.LockDir(dir, "plot")
+	if err != nil {
+		return report(stderr, err)
+	}
+	defer lock.Unlock()
 	figs, err := runs.Plot(dir, runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
 	if err != nil {
 		return report(stderr, err)
@@ -180,8 +196,14 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		fs.Usage()
 		return exitInput
 	}
-	man, err := runs.Merge(pos[0], pos[1:]...)
+	man, err := runs.MergeContext(ctx, pos[0], pos[1:]...)
 	if err != nil {
+		if man != nil {
+			// Stopped part-way: the destination is a valid run directory.
+			fmt.Fprintf(stderr, "maserpol: merge stopped: %v\nmaserpol: %s holds what was merged so far; repeat the same merge command to finish:\n  maserpol merge %s\n",
+				err, pos[0], strings.Join(pos, " "))
+			return exitFailure
+		}
 		return report(stderr, err)
 	}
 	done, failed, pending := 0, 0, 0
@@ -207,8 +229,9 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 			}
 		}
 		fmt.Fprintf(stderr, "maserpol: merge incomplete: %s in none of the sources (%s); is a shard missing?\n"+
-			"maserpol: merge the missing shard too, or compute the rest in the merged directory with:\n  maserpol run CONFIG --resume --out %s\n",
-			plural(pending, "model is", "models are"), listNames(missing), pos[0])
+			"maserpol: merge the missing shard into it when it is there:\n  maserpol merge %s SHARD_DIR\n"+
+			"maserpol: or compute the missing models in the merged directory:\n  maserpol run %s --resume --out %s\n",
+			plural(pending, "model is", "models are"), listNames(missing), pos[0], filepath.Join(pos[0], "config.toml"), pos[0])
 		return exitFailure
 	}
 	fm, plots, err := figureFormats(*formats, pos[0])
@@ -216,6 +239,11 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		return report(stderr, err)
 	}
 	if plots && !*noPlots && done > 0 {
+		lock, err := runs.LockDir(pos[0], "plot")
+		if err != nil {
+			return report(stderr, err)
+		}
+		defer lock.Unlock()
 		figs, err := runs.Plot(pos[0], runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
 		if err != nil {
 			return report(stderr, err)

@@ -228,3 +228,62 @@ func splitTop(s string) []string {
 	}
 	return append(out, s[start:])
 }
+
+// Unclosed returns the line on which an array or inline table still open
+// at line `at` was opened, and the key assigned there (0 and "" when
+// nothing is open). The TOML decoder reports an unclosed value where it
+// notices it, at the next key or table; this is where the user must look.
+func Unclosed(data []byte, at int) (line int, key string) {
+	var table string
+	counts := map[string]int{}
+	depth := 0
+	inStr := false
+	for i, raw := range strings.Split(string(data), "\n") {
+		ln := i + 1
+		if ln >= at {
+			break
+		}
+		s := strings.TrimSpace(raw)
+		if inStr {
+			if strings.Count(s, `"""`)%2 == 1 || strings.Count(s, `'''`)%2 == 1 {
+				inStr = false
+			}
+			continue
+		}
+		if depth > 0 {
+			if depth += nesting(s); depth <= 0 {
+				depth, line, key = 0, 0, ""
+			}
+			continue
+		}
+		s = stripComment(s)
+		switch {
+		case s == "":
+			continue
+		case strings.HasPrefix(s, "[["):
+			name := keyPath(strings.TrimSuffix(strings.TrimPrefix(s, "[["), "]]"))
+			table = name + "[" + strconv.Itoa(counts[name]) + "]"
+			counts[name]++
+			continue
+		case strings.HasPrefix(s, "["):
+			table = resolve(keyPath(strings.TrimSuffix(strings.TrimPrefix(s, "["), "]")), counts)
+			continue
+		}
+		eq := strings.IndexByte(s, '=')
+		if eq < 0 {
+			continue
+		}
+		val := strings.TrimSpace(s[eq+1:])
+		if strings.HasPrefix(val, `"""`) || strings.HasPrefix(val, `'''`) {
+			inStr = strings.Count(val, val[:3]) == 1
+			continue
+		}
+		if d := nesting(val); d > 0 {
+			depth, line, key = d, ln, join(table, keyPath(s[:eq]))
+		}
+	}
+	if depth <= 0 {
+		return 0, ""
+	}
+	return line, key
+}

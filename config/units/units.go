@@ -28,6 +28,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 )
 
 // Kind is the physical dimension of a quantity.
@@ -314,7 +315,7 @@ func Value(v any, k Kind, plainUnit string) (float64, error) {
 	case float64:
 		return plain(x, k, plainUnit)
 	default:
-		return 0, fmt.Errorf("expected %s as a string with a unit, got %T (allowed: %s)", k, v, Allowed(k))
+		return 0, fmt.Errorf("expected %s as a string with a unit, got %s (allowed: %s)", k, kindOfValue(v), Allowed(k))
 	}
 }
 
@@ -364,4 +365,21 @@ func Kinds() []Kind {
 	}
 	sort.Slice(ks, func(i, j int) bool { return ks[i] < ks[j] })
 	return ks
+}
+
+// kindOfValue names the TOML type of a decoded value for messages.
+func kindOfValue(v any) string {
+	switch v.(type) {
+	case bool:
+		return "a boolean"
+	case []any, []map[string]any:
+		return "an array"
+	case map[string]any:
+		return "a table"
+	case time.Time:
+		return "a date-time"
+	case nil:
+		return "nothing"
+	}
+	return "a value of another type"
 }

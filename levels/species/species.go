@@ -1,6 +1,7 @@
 package species
 
 import (
+	"bytes"
 	"embed"
 	"errors"
 	"fmt"
@@ -10,6 +11,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/BurntSushi/toml"
 
@@ -142,7 +144,14 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	if _, err := toml.Decode(string(data), &raw); err != nil {
 		var pe toml.ParseError
 		if errors.As(err, &pe) {
-			return nil, &Error{File: filename, Line: pe.Position.Line, Msg: "TOML syntax: " + pe.Message}
+			e := &Error{File: filename, Line: pe.Position.Line, Key: pe.LastKey, Msg: "malformed TOML: " + pe.Message}
+			if st := pe.Position.Start; st > 0 && st <= len(data) {
+				// Counted from the byte offset: the decoder puts an error at
+				// a newline on the next line.
+				e.Line = 1 + bytes.Count(data[:st], []byte{'\n'})
+			}
+			tomlpos.Locate(e, data)
+			return nil, e
 		}
 		return nil, &Error{File: filename, Msg: "TOML: " + err.Error()}
 	}
@@ -151,6 +160,10 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 		if err := p.checkKeys("", raw, topKeys); err != nil {
 			return nil, err
 		}
+	}
+	if len(raw) == 0 {
+		return nil, &Error{File: filename, Line: 1, Key: "name", Msg: "the species file is empty (or holds only comments)",
+			Allowed: "a species: name, frequency, einstein_a, mass, [upper] and [lower] tables, optional [[spin]] and [[coupling]]"}
 	}
 	sp := &levels.Species{}
 	var err error
@@ -274,6 +287,14 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	}
 	sp.Upper.Spins = spins
 	sp.Lower.Spins = append([]levels.Spin(nil), spins...)
+	// Bound the structure before anything is built from it.
+	if err := sp.CheckSize(); err != nil {
+		var se *levels.SizeError
+		if errors.As(err, &se) {
+			return nil, p.err(se.Key, SizeAllowed(), "%s", strings.TrimPrefix(err.Error(), "levels: "))
+		}
+		return nil, err
+	}
 
 	// Couplings.
 	coupTabs, err := p.tables(raw, "coupling")
@@ -353,6 +374,12 @@ func Parse(data []byte, filename string) (*levels.Species, error) {
 	return sp, nil
 }
 
+// SizeAllowed states the size limits of a species (package levels).
+func SizeAllowed() string {
+	return fmt.Sprintf("at most %d basis states per level, %d dipole components, %s of level structure",
+		levels.MaxDim, levels.MaxLines, levels.BytesText(levels.MaxBytes))
+}
+
 func namesOf(idx []int, names []string) []string {
 	out := make([]string, len(idx))
 	for i, k := range idx {
@@ -412,7 +439,7 @@ func (p *parser) spinRefs(t map[string]any, pre string, names []string) ([]int, 
 	key := pre + ".spins"
 	v, ok := t["spins"]
 	if !ok {
-		return nil, p.err(key, "an array of spin names", "missing")
+		return nil, p.err(key, "an array of spin names", "required key is missing")
 	}
 	var list []string
 	switch x := v.(type) {
@@ -459,7 +486,7 @@ func (p *parser) str(t map[string]any, key, def string, required bool, prefix ..
 	v, ok := t[key]
 	if !ok {
 		if required {
-			return "", p.err(full, "a string", "missing")
+			return "", p.err(full, "a string", "required key is missing")
 		}
 		return def, nil
 	}
@@ -475,7 +502,7 @@ func (p *parser) number(t map[string]any, key, prefix string, required bool, def
 	v, ok := t[key]
 	if !ok {
 		if required {
-			return 0, p.err(full, "a number", "missing")
+			return 0, p.err(full, "a number", "required key is missing")
 		}
 		return def, nil
 	}
@@ -499,7 +526,7 @@ func (p *parser) quantity(t map[string]any, key string, k units.Kind, plain stri
 	v, ok := t[key]
 	if !ok {
 		if required {
-			return 0, p.err(full, unitHint(k, plain), "missing")
+			return 0, p.err(full, unitHint(k, plain), "required key is missing")
 		}
 		return 0, nil
 	}
@@ -574,8 +601,10 @@ func typeName(v any) string {
 		return "an array"
 	case map[string]any:
 		return "a table"
+	case time.Time:
+		return "a date-time"
 	}
-	return fmt.Sprintf("%T", v)
+	return "a value of another type"
 }
 
 // typical reads the optional [typical] table: conditions typical of

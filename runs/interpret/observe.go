@@ -124,7 +124,7 @@ func (e *ObservedError) Error() string {
 		s += ": column " + e.Column
 	}
 	s += ": " + e.Msg
-	if e.Allowed != "" {
+	if e.Allowed != "" && !strings.Contains(e.Msg, "(allowed: ") {
 		s += " (allowed: " + e.Allowed + ")"
 	}
 	return s

@@ -1,0 +1,27 @@
+//go:build linux || darwin || freebsd || netbsd || openbsd || dragonfly
+
+package runs
+
+import (
+	"errors"
+	"os"
+	"syscall"
+)
+
+var errLocked = errors.New("locked")
+
+// flock takes an exclusive lock without waiting.
+func flock(f *os.File) error {
+	for {
+		err := syscall.Flock(int(f.Fd()), syscall.LOCK_EX|syscall.LOCK_NB)
+		switch {
+		case err == nil:
+			return nil
+		case errors.Is(err, syscall.EINTR):
+			continue
+		case errors.Is(err, syscall.EWOULDBLOCK):
+			return errLocked
+		}
+		return err
+	}
+}
