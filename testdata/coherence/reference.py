@@ -23,10 +23,20 @@ import time
 
 import numpy as np
 from scipy.integrate import solve_ivp
+from scipy.interpolate import CubicSpline
 from sympy import Rational
 from sympy.physics.wigner import wigner_3j
 
 SEED_I = 1e-6
+INTERP = 'linear'  # 'linear' (np.interp, the model statement) or 'cubic' (diagnostic, --interp)
+
+
+def interp(x, xp, fp, left, right):
+    """Interpolate fp(xp) at x; constant `left`/`right` outside [xp[0], xp[-1]]."""
+    if INTERP == 'linear':
+        return np.interp(x, xp, fp, left=left, right=right)
+    y = CubicSpline(xp, fp)(np.clip(x, xp[0], xp[-1]))
+    return np.where(x < xp[0], left, np.where(x > xp[-1], right, y))
 TARGETS = 10.0 ** np.arange(0.0, 4.01, 0.5)  # saturation R/Gamma: 1, 10^0.5, ..., 1e4
 
 
@@ -125,7 +135,7 @@ class Model:
     # Stokes of the channel spectrum at arbitrary velocities; outside the grid: the seed.
     def stokes_at(self, S, vel):
         seed = (SEED_I, 0.0, 0.0, 0.0)
-        return np.stack([np.interp(vel, self.v, S[:, m], left=seed[m], right=seed[m])
+        return np.stack([interp(vel, self.v, S[:, m], seed[m], seed[m])
                          for m in range(4)], axis=-1)
 
     def rate_tensor(self, S):
@@ -194,7 +204,7 @@ class Model:
             e = np.stack([(N[:, 0, 0] + N[:, 1, 1]).real, (N[:, 0, 0] - N[:, 1, 1]).real,
                           2 * N[:, 0, 1].real, 2 * N[:, 0, 1].imag], axis=-1)
             for m in range(4):
-                out[:, m] += np.interp(self.v - d, self.v, e[:, m], left=0.0, right=0.0)
+                out[:, m] += interp(self.v - d, self.v, e[:, m], 0.0, 0.0)
         return out
 
     # The integrated state per channel is (ln I, Q/I, U/I, V/I): all O(1), so one absolute
@@ -407,7 +417,12 @@ def main():
     ap.add_argument('--channels', type=int, default=201, help='channels = classes (odd)')
     ap.add_argument('--out', default='values.csv')
     ap.add_argument('--converge', action='store_true', help='compare N and 2N-1; no file')
+    ap.add_argument('--interp', choices=('linear', 'cubic'), default='linear',
+                    help='interpolation in velocity (cubic: diagnostic of the linear-grid error)')
+    ap.add_argument('--no-symmetry', action='store_true', help='skip the symmetry runs')
     a = ap.parse_args()
+    global INTERP
+    INTERP = a.interp
     t0, c0 = time.time(), time.process_time()
     rows = all_rows(a.channels)
     if a.converge:
@@ -426,7 +441,8 @@ def main():
         import os
         os.replace(a.out + '.tmp', a.out)
     sanity(rows)
-    symmetry_checks(a.channels)
+    if not a.no_symmetry:
+        symmetry_checks(a.channels)
     print("run time %.1f s CPU (%.1f s wall clock)" % (time.process_time() - c0, time.time() - t0))
 
 
