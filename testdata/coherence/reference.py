@@ -6,7 +6,8 @@ the Go implementation, so that the two can check each other. Run from this direc
 
     /usr/bin/python3 reference.py                 # writes values.csv (channels N = 201)
     /usr/bin/python3 reference.py --channels 401  # the same at twice the resolution
-    /usr/bin/python3 reference.py --converge      # N and 2N, prints the changes, no file
+    /usr/bin/python3 reference.py --converge      # N and 2N-1, prints the changes, no file
+    /usr/bin/python3 reference.py --interp cubic --no-symmetry --out values_cubic.csv
 
 Model (dimensionless): rates in units of Gamma = 1, velocities in Doppler widths, intensities in
 saturation units. Two rotational levels J_u -> J_l without hyperfine structure, Zeeman energies
@@ -14,7 +15,8 @@ omega(m) = g_omega m in both levels, sigma shift `shift` (Doppler widths); line 
 class u at channel velocity u + x_ab, x_ab = -shift (m_u - m_l). Pump phi(u) = exp(-u^2) into
 every upper sublevel; no pump into the lower level. The density matrices rho_u, rho_l of every
 velocity class are solved exactly (complex linear system, all coherences kept) at every
-right-hand-side evaluation of the transfer equation, which scipy's DOP853 integrates.
+right-hand-side evaluation of the transfer equation, which scipy's DOP853 integrates. Values
+between grid points: linear interpolation (the model statement); `--interp cubic` is a diagnostic.
 Magneto-optical (dispersive) terms are neglected in both the rates and the propagation.
 """
 import argparse
@@ -37,6 +39,8 @@ def interp(x, xp, fp, left, right):
         return np.interp(x, xp, fp, left=left, right=right)
     y = CubicSpline(xp, fp)(np.clip(x, xp[0], xp[-1]))
     return np.where(x < xp[0], left, np.where(x > xp[-1], right, y))
+
+
 TARGETS = 10.0 ** np.arange(0.0, 4.01, 0.5)  # saturation R/Gamma: 1, 10^0.5, ..., 1e4
 
 
@@ -309,13 +313,14 @@ def run(ju, jl, theta_deg, g_omega, shift, nchan, density, targets=TARGETS):
     rows = []
     for i, t in enumerate(targets):
         if len(sol.t_events[i]) == 0:
-            continue
+            sys.exit("saturation %g not reached (it is not monotonic along the path?)" % t)
         s_t, S = sol.t_events[i][0], m.stokes(sol.y_events[i][0])
         p = np.argmax(S[:, 0])
         I, Q, U, V = S[p]
         rows.append(dict(case=None, model='density' if density else 'populations', ju=ju, jl=jl,
                          theta_deg=theta_deg, g_omega=g_omega, shift=shift, saturation=t,
-                         r_over_gomega=t / g_omega if g_omega else np.inf, gain=s_t, q_b=Q / I, u_b=U / I,
+                         r_over_gomega=t / g_omega if g_omega else np.inf, gain=s_t,
+                         q_b=Q / I, u_b=U / I,
                          p_v=(S[:, 3].max() - S[:, 3].min()) / I, m_l=np.hypot(Q, U) / I))
     # Positivity and Hermiticity on the accepted solution (rejected trial stages of the
     # integrator may be unphysical and are reported separately).
@@ -408,7 +413,8 @@ def symmetry_checks(nchan):
         y0 = np.column_stack([np.full(nchan, np.log(SEED_I)), np.zeros((nchan, 3))]).ravel()
         sol = solve_ivp(m.rhs, (0.0, 400.0), y0, method='DOP853', rtol=1e-8, atol=1e-10)
         spec.append(m.stokes(sol.y[:, -1]))
-    print("  B=0 J=1-0 after s=400 (I_peak %.4g): max |S(60 deg) - S(20 deg)| / I_peak = %.1e (want 0)"
+    print("  B=0 J=1-0 after s=400 (I_peak %.4g): max |S(60 deg) - S(20 deg)| / I_peak = %.1e "
+          "(want 0)"
           % (spec[0][:, 0].max(), np.abs(spec[0] - spec[1]).max() / spec[0][:, 0].max()))
 
 
