@@ -120,7 +120,7 @@ class Model:
         up = 3 * np.einsum('abi,cbj->abcij', c, cc)     # [a, b, a', i, j], multiplies rho_u(a', a)
         kup = q[:, :, None] + q.T[None, :, :] + 2       # q_ab + q_a'b
         okup = allowed[:, :, None] & allowed.T[None, :, :]
-        lo = 3 * np.einsum('aei,abj->abeij', c, cc)     # [a, b, b', i, j], multiplies rho_l(b, b')
+        lo = 3 * np.einsum('aei,abj->abeij', c, cc)     # [a, b, b', i, j], multiplies rho_l(b', b)
         klo = q[:, :, None] + q[:, None, :] + 2         # q_ab + q_ab'
         oklo = allowed[:, :, None] & allowed[:, None, :]
         self.Nup = np.stack([np.where(((kup == k) & okup)[..., None, None], up, 0).sum(1)
@@ -204,7 +204,7 @@ class Model:
         out = np.zeros((len(self.v), 4))
         for k, d in enumerate(self.offsets):
             N = (np.einsum('acij,nca->nij', self.Nup[k], ru)
-                 - np.einsum('beij,nbe->nij', self.Nlo[k], rl))
+                 - np.einsum('beij,neb->nij', self.Nlo[k], rl))
             e = np.stack([(N[:, 0, 0] + N[:, 1, 1]).real, (N[:, 0, 0] - N[:, 1, 1]).real,
                           2 * N[:, 0, 1].real, 2 * N[:, 0, 1].imag], axis=-1)
             for m in range(4):
@@ -290,6 +290,18 @@ def self_checks(m, rng):
                 w = m.w[q + 1]
                 want += 3 * m.S[a, b] * np.outer(na[:, a] - nb[:, b], [w[0], w[1], 0.0, w[2]])
     assert np.allclose(e, want, atol=1e-12), "eta reduction for diagonal rho"
+    # Energy: for any Hermitian rho and a flat spectrum (no shift), the beam's gain
+    # sum_ij N_ij J_ij = (eta . S)/2 equals the net stimulated emission
+    # Tr(R^E rho_u) - Tr(R^A rho_l) of the class (the index order of rho in N follows).
+    Sf = np.column_stack([np.full(nc, 1.5), rng.uniform(-1, 1, (nc, 3)) * 0.4])
+    Gf = m0.rate_tensor(Sf)
+    REf, RAf = np.einsum('nabcb->nac', Gf), np.einsum('nadab->nbd', Gf)
+    Xu = rng.normal(size=(nc, m.nu, m.nu)) + 1j * rng.normal(size=(nc, m.nu, m.nu))
+    Xl = rng.normal(size=(nc, m.nl, m.nl)) + 1j * rng.normal(size=(nc, m.nl, m.nl))
+    ru, rl = Xu + Xu.conj().transpose(0, 2, 1), Xl + Xl.conj().transpose(0, 2, 1)
+    gain = np.einsum('nk,nk->n', m0.eta(None, (ru, rl)), Sf) / 2
+    net = (np.einsum('nab,nba->n', REf, ru) - np.einsum('nab,nba->n', RAf, rl)).real
+    assert np.allclose(gain, net, atol=1e-9 * np.abs(net).max()), "energy: beam gain = net stimulated emission"
 
 
 # ----------------------------------------------------------------------------------------------
