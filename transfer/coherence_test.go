@@ -424,6 +424,15 @@ func TestCoherentNotPhysicalMessage(t *testing.T) {
 			t.Errorf("message %q lacks %q", err, want)
 		}
 	}
+	// In a trial state it only rejects the step (an accepted state must be
+	// physical, a trial one may not be); other failures stop the run.
+	if worst, k, e := m.trialFailed(err); e != nil || !math.IsInf(worst, 1) || k != m.jlo+3 || m.unphysical != err {
+		t.Errorf("trialFailed(unphysical) = %g, %d, %v", worst, k, e)
+	}
+	other := m.classError(1, m.jlo, 1, errSingular)
+	if _, _, e := m.trialFailed(other); e != other {
+		t.Errorf("trialFailed(singular) = %v, want the error back", e)
+	}
 }
 
 // TestCoherentFieldReversal: reversing B keeps I and Q_f and flips V (as

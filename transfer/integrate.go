@@ -2,6 +2,7 @@ package transfer
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"strings"
@@ -44,11 +45,11 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 	c, md, e := m.cur, m.mid, m.end
 	m.advance(&md.st, &c.st, c.eI, c.eQ, c.eU, c.eV, h/2)
 	if err := m.populate(md, pos+h/2); err != nil {
-		return 0, 0, err
+		return m.trialFailed(err)
 	}
 	m.advance(&e.st, &c.st, md.eI, md.eQ, md.eU, md.eV, h)
 	if err := m.populate(e, pos+h); err != nil {
-		return 0, 0, err
+		return m.trialFailed(err)
 	}
 	tol := m.p.Tolerance
 	worst, wk := 0.0, 0
@@ -100,12 +101,25 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 	return worst, wk, nil
 }
 
+// trialFailed turns a class solve that came out unphysical in a trial
+// state into a rejected step (a shorter step may stay physical: only
+// accepted states must be); other errors stop the run.
+func (m *Model) trialFailed(err error) (float64, int, error) {
+	var se *StepError
+	if errors.Is(err, errNotPhysical) && errors.As(err, &se) {
+		m.unphysical = err
+		return math.Inf(1), se.Channel, nil
+	}
+	return 0, 0, err
+}
+
 // Run integrates the column from the seed until the saturation target (or
 // the total gain Params.Gain when set), recording checkpoints.
 func (m *Model) Run(ctx context.Context) (*Trajectory, error) {
 	p := &m.p
 	m.steps, m.rej, m.clamped = 0, 0, 0
 	m.csOn, m.csFrom = false, math.Inf(1)
+	m.unphysical = nil
 	tr := &Trajectory{
 		Velocity:           append([]float64(nil), m.v...),
 		GOmega:             m.gOmega,
@@ -175,6 +189,9 @@ func (m *Model) Run(ctx context.Context) (*Trajectory, error) {
 			m.rej++
 			h = hs * math.Max(0.1, 0.9*math.Pow(err, -1.0/3))
 			if h < hmin*math.Max(1, pos) {
+				if m.unphysical != nil {
+					return nil, m.unphysical
+				}
 				return nil, &StepError{Position: pos, Channel: wk, Velocity: m.v[wk],
 					Msg: fmt.Sprintf("step size %.3g cannot meet the tolerance %.3g", h, p.Tolerance)}
 			}
@@ -199,6 +216,7 @@ func (m *Model) Run(ctx context.Context) (*Trajectory, error) {
 		m.cur, m.end = m.end, m.cur
 		pos += hs
 		m.steps++
+		m.unphysical = nil
 		for ti < len(targets) && m.cur.sat >= targets[ti]*(1-checkpointEp) {
 			tr.Checkpoints = append(tr.Checkpoints, m.checkpoint(pos))
 			ti++

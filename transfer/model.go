@@ -107,6 +107,11 @@ type Model struct {
 	acc           [numAcc][]float64
 	steps, rej    int
 	clamped       int // interpolated rates below zero (under-resolved spectrum)
+	// unphysical is the last trial step whose density matrix came out
+	// with negative populations: such a step is rejected and retried
+	// shorter, and the run fails with this error only when the step size
+	// collapses.
+	unphysical error
 }
 
 // numAcc is the number of propagation accumulators (see Model.etaW).
@@ -582,7 +587,7 @@ func (m *Model) classError(pos float64, j int, sat float64, err error) error {
 	if errors.Is(err, errNotPhysical) {
 		msg += " (the mean-resonance rule of the coherence terms is outside its validity here: Zeeman shifts too large against the Doppler width at this saturation; see physics.md section 8)"
 	}
-	return &StepError{Position: pos, Channel: j, Velocity: m.v[j], Msg: msg}
+	return &StepError{Position: pos, Channel: j, Velocity: m.v[j], Msg: msg, cause: err}
 }
 
 // weightCross fills m.yc with u1^T J conj(u2) per channel for the three
@@ -680,7 +685,11 @@ type StepError struct {
 	Channel  int
 	Velocity float64 // m/s
 	Msg      string
+	cause    error
 }
+
+// Unwrap returns the class solver's error behind e, if any.
+func (e *StepError) Unwrap() error { return e.cause }
 
 func (e *StepError) Error() string {
 	return fmt.Sprintf("transfer: at gain %.6g along the column, channel %d (v = %.4g km/s): %s",
