@@ -510,6 +510,18 @@ func (m *Model) useCoherent(sat float64) bool {
 	return m.csOn
 }
 
+// classCoherentFrom is the R/(g Omega) of a class below which the density
+// matrix, once in use, leaves the class to the rate equations: the
+// automatic model's threshold for Auto, and 1e-7 for Density, where the
+// neglected coherences (~1e-7 of the populations) change nothing
+// reported (project choices; physics.md section 8).
+func (m *Model) classCoherentFrom() float64 {
+	if m.p.Population == Density {
+		return 1e-7
+	}
+	return AutoCoherenceFrom
+}
+
 // populate solves every velocity class for the radiation st.st with the
 // population model in use, then builds the propagation matrix of every
 // channel and the saturation measure. pos is the position along the
@@ -542,9 +554,15 @@ func (m *Model) populate(st *state, pos float64) error {
 	if coh {
 		m.weightCross(st)
 	}
-	// Populations, class by class.
+	// Populations, class by class. With the density matrix in use, a class
+	// whose largest rate is below classCoherentFrom x g Omega (a far wing
+	// of a narrowed line) is solved by the rate equations, which agree with
+	// it to second order in that ratio; its coherence slots are zero.
 	r, dnl := m.r, m.dnl
+	nl := len(m.lines)
+	rFloor := m.classCoherentFrom() * m.gOmega / m.gamma
 	for j := m.jlo; j < m.jhi; j++ {
+		rmax := 0.0
 		for i := range m.lines {
 			l := &m.lines[i]
 			y := m.y[l.q+1]
@@ -557,8 +575,9 @@ func (m *Model) populate(st *state, pos float64) error {
 				rl = 0
 			}
 			r[i] = rl
+			rmax = math.Max(rmax, rl)
 		}
-		if coh {
+		if coh && rmax >= rFloor {
 			if err := m.cs.solve(m, st, j); err != nil {
 				return m.classError(pos, j, st.sat, err)
 			}
@@ -569,6 +588,11 @@ func (m *Model) populate(st *state, pos float64) error {
 		}
 		for i, d := range dnl {
 			st.src[i*m.stride+pad+j] = d
+		}
+		if coh {
+			for s := range m.cs.slots {
+				st.src[(nl+s)*m.stride+pad+j] = 0
+			}
 		}
 	}
 	st.coherent = coh
