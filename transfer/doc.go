@@ -122,6 +122,11 @@
 //     column, Density from there on; Rates throughout, with a warning, when
 //     the class system of the species exceeds autoMaxDim real unknowns.
 //
+// Once the density matrix is in use, a velocity class whose largest rate
+// stays below classCoherentFrom x g Omega (AutoCoherenceFrom for Auto,
+// 1e-7 for Density: the far wings of a narrowed line) is solved by the
+// rate equations, which agree with it to second order in that ratio.
+//
 // The coherence set keeps a pair of eigenstates of one level when their
 // splitting in rate units is below CoherenceThreshold x Saturation. Each
 // class system (populations, then Re and Im of every kept pair, real form)
