@@ -30,6 +30,24 @@ var clusterFiles = []string{"study.toml", "array.sbatch"}
 // clusterShards is the array size of array.sbatch.
 const clusterShards = 4
 
+// The merge job and the resubmission of a killed task, as the README
+// gives them.
+const (
+	clusterMerge  = "maserpol merge study-run shards/s*"
+	clusterResume = "sbatch --array=2 array.sbatch --resume"
+)
+
+// The README shows the script and commands that TestCluster runs.
+func TestClusterScriptInReadme(t *testing.T) {
+	readme := readFile(t, filepath.Join("..", "..", "README.md"))
+	script := readFile(t, filepath.Join("..", "..", "testdata", "cluster", "array.sbatch"))
+	for _, want := range []string{"```bash\n" + script + "```", "--wrap '" + clusterMerge + "'", "sbatch --dependency=afterok:$jobid", clusterResume} {
+		if !strings.Contains(readme, want) {
+			t.Errorf("README.md (Running on a cluster) does not show, verbatim:\n%s", want)
+		}
+	}
+}
+
 func TestCluster(t *testing.T) {
 	if os.Getenv("MASERPOL_SLURM") != "1" {
 		t.Skip("needs a single-node Slurm on this machine: start one with .ci/slurm-up, then set MASERPOL_SLURM=1 (and SLURM_CONF as it prints)")
@@ -59,7 +77,7 @@ func TestCluster(t *testing.T) {
 		// The merge step as the README gives it: a job that waits for
 		// every task of the array.
 		merge := sbatch(t, dir, "--dependency=afterok:"+array, "--output=merge-%j.out",
-			"--wrap", "maserpol merge study-run shards/s*")
+			"--wrap", clusterMerge)
 		states := waitJobs(t, dir, array, merge)
 		for id, s := range states {
 			if s != "COMPLETED" {
@@ -75,7 +93,7 @@ func TestCluster(t *testing.T) {
 	t.Run("task killed and resumed", func(t *testing.T) {
 		dir := studyDir(t)
 		array := sbatch(t, dir, "array.sbatch")
-		const victim = 2
+		const victim = 2 // the task clusterResume resubmits
 		shard := filepath.Join(dir, "shards", fmt.Sprint("s", victim))
 		// Freeze task 2 once it has finished a model, so that the kill
 		// lands in the middle of its shard however fast the models are;
@@ -127,7 +145,7 @@ func TestCluster(t *testing.T) {
 		}
 
 		// Resubmit the killed task with --resume, as the README says.
-		resumed := sbatch(t, dir, fmt.Sprintf("--array=%d", victim), "array.sbatch", "--resume")
+		resumed := sbatch(t, dir, strings.Fields(clusterResume)[1:]...)
 		for id, s := range waitJobs(t, dir, resumed) {
 			if s != "COMPLETED" {
 				t.Fatalf("resumed job %s: %s, want COMPLETED", id, s)
