@@ -627,6 +627,40 @@ func countKilledSession(dir string, old, fresh *Manifest) {
 	last.Stopped = "killed"
 }
 
+// summaryStats checks one model table against the summary layout and adds
+// its checkpoints to the validity counts.
+func summaryStats(vs *ValidityStats, t *ecsv.Table, ncols int) error {
+	if len(t.Columns) != ncols {
+		return fmt.Errorf("%s: %d columns, summary has %d", t.File, len(t.Columns), ncols)
+	}
+	r, err := t.Floats("r_over_gomega")
+	if err != nil {
+		return err
+	}
+	ok, err := t.Bools("valid")
+	if err != nil {
+		return err
+	}
+	pop, err := t.Strings("population")
+	if err != nil {
+		return err
+	}
+	for i := range r {
+		vs.Checkpoints++
+		if ok[i] {
+			vs.Valid++
+		}
+		if pop[i] == transfer.Density.String() {
+			vs.Density++
+		}
+		// NaN (no field) counts as unbounded.
+		if math.IsNaN(r[i]) || r[i] > vs.MaxRoverGOmega {
+			vs.MaxRoverGOmega = r[i]
+		}
+	}
+	return nil
+}
+
 // writeSummary concatenates the rows of the finished models in index
 // order. It needs only the directory and its manifest, so Merge builds the
 // same bytes as Execute; cols is the layout to use when no model is done.
@@ -641,54 +675,34 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 	if len(man.VariedColumns) > 0 {
 		meta = append(meta, ecsv.Meta{Key: "varied_columns", Value: strings.Join(man.VariedColumns, ", ")})
 	}
-	var tabs []*ecsv.Table
+	// The model tables are read one at a time and their rows streamed into
+	// the summary, so memory does not grow with the number of models.
+	done := make([]string, 0, len(man.Models))
 	for _, ms := range man.Models {
-		if ms.Status != StatusDone {
-			continue
+		if ms.Status == StatusDone {
+			done = append(done, filepath.Join(dir, "models", ms.Name+".ecsv"))
 		}
-		t, err := ecsv.ReadFile(filepath.Join(dir, "models", ms.Name+".ecsv"))
-		if err != nil {
-			return vs, err
-		}
-		if cols == nil {
-			cols = t.Columns
-		}
-		if len(t.Columns) != len(cols) {
-			return vs, fmt.Errorf("%s: %d columns, summary has %d", t.File, len(t.Columns), len(cols))
-		}
-		r, err := t.Floats("r_over_gomega")
-		if err != nil {
-			return vs, err
-		}
-		ok, err := t.Bools("valid")
-		if err != nil {
-			return vs, err
-		}
-		pop, err := t.Strings("population")
-		if err != nil {
-			return vs, err
-		}
-		for i := range r {
-			vs.Checkpoints++
-			if ok[i] {
-				vs.Valid++
-			}
-			if pop[i] == transfer.Density.String() {
-				vs.Density++
-			}
-			// NaN (no field) counts as unbounded.
-			if math.IsNaN(r[i]) || r[i] > vs.MaxRoverGOmega {
-				vs.MaxRoverGOmega = r[i]
-			}
-		}
-		tabs = append(tabs, t)
 	}
 	if cols == nil {
-		return vs, nil
+		if len(done) == 0 {
+			return vs, nil
+		}
+		t, err := ecsv.ReadFile(done[0])
+		if err != nil {
+			return vs, err
+		}
+		cols = t.Columns
 	}
 	err := writeAtomic(filepath.Join(dir, SummaryName), func(out io.Writer) error {
 		w := ecsv.NewWriter(out, cols, meta)
-		for _, t := range tabs {
+		for _, path := range done {
+			t, err := ecsv.ReadFile(path)
+			if err != nil {
+				return err
+			}
+			if err := summaryStats(&vs, t, len(cols)); err != nil {
+				return err
+			}
 			for _, r := range t.Rows {
 				if err := w.WriteCells(r); err != nil {
 					return err
