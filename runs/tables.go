@@ -240,6 +240,10 @@ func writeModelTable(buf io.Writer, st *config.Study, l layout, m *config.Model,
 	return w.Flush()
 }
 
+// spectrumDigits is the number of significant digits of the spectra
+// tables (a relative rounding of at most 5e-7).
+const spectrumDigits = 7
+
 // writeSpectrum renders the long-form spectra of one model.
 func writeSpectrum(buf io.Writer, st *config.Study, m *config.Model, tr *transfer.Trajectory) error {
 	meta := []ecsv.Meta{{Key: "model", Value: m.Name}, {Key: "species", Value: m.Species}}
@@ -251,7 +255,9 @@ func writeSpectrum(buf io.Writer, st *config.Study, m *config.Model, tr *transfe
 		maxR = math.Max(maxR, cp.RoverGOmega)
 	}
 	meta = append(meta, ecsv.Meta{Key: "max_r_over_gomega", Value: strconv.FormatFloat(maxR, 'g', -1, 64)})
-	w := ecsv.NewWriter(buf, spectrumColumns, tableMeta(st, meta...))
+	// Seven significant digits (spectrumDigits): half the bytes of the
+	// exact form, far below any measurement's precision.
+	w := ecsv.NewWriter(buf, spectrumColumns, tableMeta(st, meta...)).SetDigits(spectrumDigits)
 	vel := make([]float64, len(tr.Velocity))
 	for i, v := range tr.Velocity {
 		vel[i] = units.In(v, units.Velocity, "km/s")

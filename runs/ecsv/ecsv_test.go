@@ -293,3 +293,44 @@ func TestAstropyUnitStrings(t *testing.T) {
 		t.Errorf("writer spells the unit differently:\n%s", buf.String())
 	}
 }
+
+// TestSetDigits: with SetDigits(7) floats read back within half a unit
+// of the seventh digit (at most 5e-7 relative), NaN and infinities as before.
+func TestSetDigits(t *testing.T) {
+	var b strings.Builder
+	w := NewWriter(&b, []Column{{Name: "x", Datatype: Float64}}, nil).SetDigits(7)
+	xs := []float64{math.Pi, -1.234567891e-20, 6.02214076e23, 0, math.NaN(), math.Inf(1)}
+	for _, x := range xs {
+		if err := w.Float(x).End(); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := w.Flush(); err != nil {
+		t.Fatal(err)
+	}
+	tab, err := Read(strings.NewReader(b.String()), "digits.ecsv")
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := tab.Floats("x")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, x := range xs {
+		switch {
+		case math.IsNaN(x):
+			if !math.IsNaN(got[i]) {
+				t.Errorf("NaN read as %g", got[i])
+			}
+		case math.IsInf(x, 0) || x == 0:
+			if got[i] != x {
+				t.Errorf("%g read as %g", x, got[i])
+			}
+		case math.Abs(got[i]/x-1) > 5e-7:
+			t.Errorf("%g read as %g", x, got[i])
+		}
+	}
+	if strings.Contains(b.String(), "3.14159265") {
+		t.Errorf("more than 7 digits written:\n%s", b.String())
+	}
+}

@@ -40,6 +40,7 @@ type Writer struct {
 	buf    []byte
 	ncell  int // cells of the row being built by Float, Int, ...
 	plain  bool
+	digits int // significant digits of Float; 0 = shortest exact form
 	err    error
 }
 
@@ -313,8 +314,20 @@ func (w *Writer) WriteCells(cells []string) error {
 // reported by End.
 func (w *Writer) Float(x float64) *Writer {
 	if w.cell(Float64) {
-		w.buf = AppendFloat(w.buf, x)
+		if w.digits > 0 && !math.IsNaN(x) && !math.IsInf(x, 0) {
+			w.buf = strconv.AppendFloat(w.buf, x, 'g', w.digits, 64)
+		} else {
+			w.buf = AppendFloat(w.buf, x)
+		}
 	}
+	return w
+}
+
+// SetDigits makes Float write n significant digits (0: the shortest form
+// that reads back exactly, the default). Large tables of model spectra
+// use 7: far below any measurement's precision, and half the bytes.
+func (w *Writer) SetDigits(n int) *Writer {
+	w.digits = n
 	return w
 }
 
