@@ -33,9 +33,18 @@ type PlotOptions struct {
 	Titles bool
 	// Note, if not nil, is told about figures skipped.
 	Note func(string)
+	// Models draws the per-model figures (<model>_spectra, _evolution)
+	// for any study; by default only studies of at most MaxModelFigures
+	// models get them (a large study would write two files per model).
+	Models bool
 	// saved, if not nil, sees every figure after it is written (tests).
 	saved func(fig *figures.Stack, paths []string)
 }
+
+// MaxModelFigures is the largest study that gets per-model figures by
+// default (project choice: a dozen models is about what one looks at one
+// by one; the study figures show the rest).
+const MaxModelFigures = 16
 
 // Plot draws the figures of a run directory from its tables alone
 // (summary.ecsv and spectra/), into dir/plots. It returns the files
@@ -44,6 +53,8 @@ type PlotOptions struct {
 //
 //	plots/<model>_spectra.*   I, Q, U, V at the last checkpoint, K
 //	plots/<model>_evolution.* I, Q, U, V over I_peak at up to three checkpoints
+//	                          (these two for studies of at most MaxModelFigures
+//	                          models, or with PlotOptions.Models)
 //	plots/saturation[_<tag>][_k].*
 //	                          m_l and signed P_V against saturation, one curve
 //	                          per model; with more than six models, one figure
@@ -115,10 +126,14 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 		}
 		return err
 	}
-	for _, m := range models {
-		if err := plotSpectra(dir, m, save); err != nil {
-			return out, err
+	if len(models) <= MaxModelFigures || opt.Models {
+		for _, m := range models {
+			if err := plotSpectra(dir, m, save); err != nil {
+				return out, err
+			}
 		}
+	} else if opt.Note != nil {
+		opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
 	}
 	if random {
 		err = plotSpread(models, save)

@@ -342,3 +342,33 @@ func TestInterpLogEnds(t *testing.T) {
 		t.Errorf("midpoint in log: %g", v)
 	}
 }
+
+// TestPerModelFiguresOnlyForSmallStudies: a study of more than
+// MaxModelFigures models gets the study figures but no per-model ones,
+// with a note saying how to draw them; PlotOptions.Models draws them.
+func TestPerModelFiguresOnlyForSmallStudies(t *testing.T) {
+	dir := t.TempDir()
+	cfg := strings.Replace(strings.Replace(cfg2x3, `["10 mG", "30 mG"]`, `["10 mG", "30 mG", "100 mG", "300 mG", "1 G", "3 G"]`, 1), `["30 deg", "60 deg", "90 deg"]`, `["30 deg", "50 deg", "70 deg", "90 deg"]`, 1)
+	rep := execute(t, study(t, strings.Replace(cfg, "plots = false", "plots = true\nformats = [\"svg\"]", 1)), dir, Options{})
+	perModel := func(figs []string) (n int) {
+		for _, f := range figs {
+			if strings.Contains(filepath.Base(f), "_spectra.") || strings.Contains(filepath.Base(f), "_evolution.") {
+				n++
+			}
+		}
+		return n
+	}
+	if n := perModel(rep.Figures); n != 0 || len(rep.Figures) == 0 {
+		t.Errorf("24 models: %d per-model figures of %d", n, len(rep.Figures))
+	}
+	if !strings.Contains(strings.Join(rep.Notes, " "), "per-model figures skipped for 24 models") {
+		t.Errorf("no note about the skipped figures: %q", rep.Notes)
+	}
+	figs, err := Plot(dir, PlotOptions{Formats: []string{"svg"}, Models: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if n := perModel(figs); n != 48 {
+		t.Errorf("with Models: %d per-model figures, want 48", n)
+	}
+}

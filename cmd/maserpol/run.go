@@ -154,6 +154,7 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := flagsFor("plot", stderr)
 	formats := fs.String("format", "", "comma-separated figure `formats` among png, svg, pdf, eps (default: output.formats of the run's config.toml, else png,svg)")
 	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
+	perModel := fs.Bool("models", false, "draw the per-model figures (<model>_spectra, _evolution) for any study (default: for studies of at most 16 models)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -175,7 +176,7 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return report(stderr, err)
 	}
 	defer lock.Unlock()
-	figs, err := runs.Plot(dir, runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
+	figs, err := runs.Plot(dir, runs.PlotOptions{Formats: fm, Titles: *titles, Models: *perModel, Note: noteTo(stderr)})
 	if err != nil {
 		return report(stderr, err)
 	}
