@@ -94,6 +94,14 @@ func TestCoherentLimit(t *testing.T) {
 // theta (covariance); and with theta = 0 the problem is axially symmetric
 // about k, so m_l = 0 at every R/gOmega (physics.md section 8).
 func TestCoherentSymmetry(t *testing.T) {
+	sp, err := species.Preset("hcn-like-j1-0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	hcn0, err := levels.NewTransition(sp, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
 	for _, tc := range []struct {
 		name string
 		tr   *levels.Transition
@@ -102,6 +110,7 @@ func TestCoherentSymmetry(t *testing.T) {
 		{"J=1-0 B=0 theta 60", j10(0.5, 0), Params{Channels: 128, Theta: deg(60), Doppler: 1000, Saturation: 1e4, Population: Density}},
 		{"J=1-0 B=0 theta 20 auto", j10(0.5, 0), Params{Channels: 128, Theta: deg(20), Doppler: 1000, Saturation: 1e4}},
 		{"J=2-1 B=0 theta 75", j21(t, 0, 1), Params{Channels: 128, Theta: deg(75), Doppler: 1000, Saturation: 1e3, Population: Density, CheckpointsPerDecade: 2}},
+		{"HCN-like hyperfine B=0 theta 50", hcn0, Params{Channels: 128, Theta: deg(50), Temperature: 100, Saturation: 30, Population: Density, CheckpointsPerDecade: 1}},
 		{"J=1-0 theta 0", j10Split(10, 10), Params{Channels: 128, Theta: 0, Doppler: 1000, Saturation: 1e4, Population: Density}},
 		{"J=2-1 theta 0", j21(t, 10, 10), Params{Channels: 128, Theta: 0, Doppler: 1000, Saturation: 1e3, Population: Density, CheckpointsPerDecade: 2}},
 	} {
