@@ -18,7 +18,7 @@
 // # Grid and profile
 //
 // Channels and velocity classes share one uniform grid of Params.Channels
-// points (default 256) in radio velocity, v = c (nu0 - nu)/nu0, relative to
+// points (default DefaultChannels) in radio velocity, v = c (nu0 - nu)/nu0, relative to
 // the species rest frequency: higher frequency is lower velocity. The
 // automatic span covers every line component (hyperfine offsets and Zeeman
 // shifts) plus 4 Doppler widths on either side. The Doppler profile is
