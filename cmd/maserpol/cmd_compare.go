@@ -82,8 +82,8 @@ func cmdCompare(ctx context.Context, args []string, stdout, stderr io.Writer) in
 	printRanking(stdout, obs, rk, *top)
 	printIntervals(stdout, models, interpret.FitSurface(obs, models, opt))
 	for _, r := range rk[:min(*top, len(rk))] {
-		if rg := rgAt(r); rg > interpret.ValidLimit {
-			fmt.Fprintf(stderr, "maserpol: warning: %s at R/Gamma %.3g has R/(g Omega) = %.3g > 0.1: outside the populations-only regime\n", r.Model.Name, r.Best.Saturation, rg)
+		if !validAt(r) {
+			fmt.Fprintf(stderr, "maserpol: warning: %s at R/Gamma %.3g (R/(g Omega) = %.3g) lies outside the validity of its population model (column valid of the run's summary)\n", r.Model.Name, r.Best.Saturation, rgAt(r))
 		}
 	}
 	if n := atBound(rk); n > 0 {
@@ -129,10 +129,20 @@ func atBound(rk []interpret.Ranked) int {
 
 // validText is the validity cell of a ranked row.
 func validText(r interpret.Ranked) string {
-	if rgAt(r) <= interpret.ValidLimit {
+	if validAt(r) {
 		return "yes"
 	}
 	return "NO"
+}
+
+// validAt is the run's validity of the best checkpoint of r.
+func validAt(r interpret.Ranked) bool {
+	for i, s := range r.Model.Spectra {
+		if s.Checkpoint == r.Best.Checkpoint && i < len(r.Model.Valid) {
+			return r.Model.Valid[i]
+		}
+	}
+	return rgAt(r) <= interpret.ValidLimit
 }
 
 func rgAt(r interpret.Ranked) float64 {
@@ -185,7 +195,7 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 			break
 		}
 		shown++
-		if rgAt(r) > interpret.ValidLimit {
+		if !validAt(r) {
 			outside++
 		}
 		shift := fmt.Sprintf("%.4f", r.Best.Shift/1e3)
@@ -206,7 +216,7 @@ func printRanking(w io.Writer, obs *interpret.Observed, rk []interpret.Ranked, t
 		fmt.Fprintln(tw, line+"\t"+g3(r.Best.RedChi2))
 	}
 	tw.Flush()
-	fmt.Fprintf(w, "\nValidity: the populations-only model holds where R/(g Omega) <= 0.1 (column valid); %d of %d ranked rows shown are outside it.\n", outside, shown)
+	fmt.Fprintf(w, "\nValidity: column valid is the run's own (rate equations: R/(g Omega) <= 0.1; density matrix: flat-spectrum measure <= 0.01); %d of %d ranked rows shown are outside it.\n", outside, shown)
 	if bound > 0 {
 		fmt.Fprintf(w, "Shift: in %d of the %d rows shown the best shift is at the --max-shift bound (marked): the optimum may lie beyond it.\n", bound, shown)
 	}

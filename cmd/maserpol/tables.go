@@ -62,7 +62,7 @@ func finite(x float64) float64 {
 func programMeta() ecsv.Meta { return ecsv.Meta{Key: "program", Value: "maserpol " + runs.Version} }
 
 func validityMeta() ecsv.Meta {
-	return ecsv.Meta{Key: "validity", Value: "populations-only model (no coherences between Zeeman eigenstates): valid where R/(g Omega) <= 0.1"}
+	return ecsv.Meta{Key: "validity", Value: "each checkpoint valid within its population model: rate equations (no Zeeman coherences) where R/(g Omega) <= 0.1, density matrix where the flat-spectrum measure <= 0.01; both need R <= 0.1 of the Doppler width in rate units"}
 }
 
 func gStr(x float64) string { return strconv.FormatFloat(x, 'g', -1, 64) }
@@ -77,8 +77,8 @@ var verdictColumns = []ecsv.Column{
 	{Name: "pl_max", Datatype: ecsv.Float64, Description: "highest projected m_l"},
 	{Name: "r_over_gomega_min", Datatype: ecsv.Float64, Description: "lowest R/(g Omega) of the mechanism's models in the saturation range"},
 	{Name: "r_over_gomega_max", Datatype: ecsv.Float64, Description: "highest R/(g Omega)"},
-	{Name: "valid", Datatype: ecsv.Bool, Description: "R/(g Omega) <= 0.1 over the whole saturation range"},
-	{Name: "valid_up_to", Datatype: ecsv.Float64, Description: "saturation R/Gamma up to which R/(g Omega) <= 0.1 when not valid (nan: nowhere in the range)"},
+	{Name: "valid", Datatype: ecsv.Bool, Description: "every checkpoint over the saturation range lies within the validity of its population model"},
+	{Name: "valid_up_to", Datatype: ecsv.Float64, Description: "saturation R/Gamma up to which the models stay valid when not valid (nan: nowhere in the range)"},
 	{Name: "reproduces", Datatype: ecsv.Bool, Description: "the mechanism reproduces the measurement"},
 	{Name: "consistent_ml", Datatype: ecsv.String, Description: "consistent parameter range from m_l alone"},
 	{Name: "n_consistent_ml", Datatype: ecsv.Int64, Description: "models consistent from m_l alone"},
@@ -204,7 +204,7 @@ func writeRanking(path string, obs *interpret.Observed, rk []interpret.Ranked) e
 		{Name: "checkpoint", Datatype: ecsv.Int64, Description: "best checkpoint of the model"},
 		{Name: "saturation", Datatype: ecsv.Float64, Description: "saturation R/Gamma at that checkpoint"},
 		{Name: "r_over_gomega", Datatype: ecsv.Float64, Description: "R/(g Omega) at that checkpoint"},
-		{Name: "valid", Datatype: ecsv.Bool, Description: "R/(g Omega) <= 0.1"},
+		{Name: "valid", Datatype: ecsv.Bool, Description: "the checkpoint lies within the validity of its population model (the run's valid column)"},
 		{Name: "shift_kms", Unit: "km / s", Datatype: ecsv.Float64, Description: "velocity shift added to the model"},
 		{Name: "shift_at_bound", Datatype: ecsv.Bool, Description: "the best shift sits at --max-shift"},
 		{Name: "scale", Unit: scaleAstropyUnit(obs), Datatype: ecsv.Float64, Description: "factor (>= 0) from model K to the observed intensity, the same for I, Q, U, V"},
@@ -249,7 +249,7 @@ func writeRanking(path string, obs *interpret.Observed, rk []interpret.Ranked) e
 				}
 				w.Float(v)
 			}
-			w.Int(r.Best.Checkpoint).Float(r.Best.Saturation).Float(rgAt(r)).Bool(rgAt(r) <= interpret.ValidLimit).
+			w.Int(r.Best.Checkpoint).Float(r.Best.Saturation).Float(rgAt(r)).Bool(validAt(r)).
 				Float(r.Best.Shift / 1e3).Bool(r.Best.ShiftAtBound).Float(r.Best.Scale)
 			for k := range interpret.StokesNames {
 				if obs.Use[k] {

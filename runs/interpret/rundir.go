@@ -24,6 +24,10 @@ type RunModel struct {
 	Params      []Param
 	Spectra     []ModelSpectrum
 	RoverGOmega []float64 // per checkpoint, same order as Spectra
+	// Valid per checkpoint, same order: the summary's valid column (the
+	// validity of the population model that gave the checkpoint); run
+	// directories without it fall back to R/(g Omega) <= ValidLimit.
+	Valid []bool
 }
 
 // Param returns the value of a parameter column, ok = false if absent.
@@ -61,6 +65,13 @@ func ReadRunDir(dir string) ([]RunModel, []string, error) {
 	if err != nil {
 		return nil, nil, err
 	}
+	valid, err := t.Bools("valid")
+	if err != nil {
+		valid = make([]bool, len(rg))
+		for i, r := range rg {
+			valid[i] = r <= ValidLimit
+		}
+	}
 	pcols := t.Columns[si+1 : ci]
 	pvals := make([][]float64, len(pcols))
 	for j, c := range pcols {
@@ -71,6 +82,7 @@ func ReadRunDir(dir string) ([]RunModel, []string, error) {
 	var models []RunModel
 	index := map[string]int{}
 	rgOf := map[string]map[int]float64{}
+	validOf := map[string]map[int]bool{}
 	for i, n := range names {
 		if _, ok := index[n]; !ok {
 			index[n] = len(models)
@@ -80,8 +92,10 @@ func ReadRunDir(dir string) ([]RunModel, []string, error) {
 			}
 			models = append(models, m)
 			rgOf[n] = map[int]float64{}
+			validOf[n] = map[int]bool{}
 		}
 		rgOf[n][int(cps[i])] = rg[i]
+		validOf[n][int(cps[i])] = valid[i]
 	}
 	var warn []string
 	out := models[:0]
@@ -96,8 +110,10 @@ func ReadRunDir(dir string) ([]RunModel, []string, error) {
 		}
 		m.Spectra = sp
 		m.RoverGOmega = make([]float64, len(sp))
+		m.Valid = make([]bool, len(sp))
 		for i, s := range sp {
 			m.RoverGOmega[i] = rgOf[m.Name][s.Checkpoint]
+			m.Valid[i] = validOf[m.Name][s.Checkpoint]
 		}
 		out = append(out, m)
 	}
