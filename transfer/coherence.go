@@ -9,6 +9,7 @@ import (
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/lapack/lapack64"
+	"gonum.org/v1/gonum/unit/constant"
 )
 
 // This file holds the density-matrix population model of physics.md
@@ -83,7 +84,6 @@ type coherent struct {
 	// Kept pairs per level: index of the real part in the unknowns (the
 	// imaginary part follows it), or -1; keyed by level offset a*n + a'.
 	pairU, pairL []int
-	nPairU       int
 
 	pairs   []linePair2 // line pairs whose G enters the equations or the gain
 	pairOf  map[[2]int]int
@@ -245,7 +245,7 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 		lineOf[[2]int{l.up, l.lo}] = i
 	}
 	limit := m.p.CoherenceThreshold * rmax
-	c := 299792458.0
+	c := float64(constant.LightSpeedInVacuum)
 	vd := m.p.Doppler
 	// Unknowns: upper populations, lower populations, then the kept pairs.
 	dim := nU + nL
@@ -269,7 +269,6 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 		}
 	}
 	keep(cs.pairU, nU, omU, func(i int) float64 { return up[i].Energy })
-	cs.nPairU = (dim - nU - nL) / 2
 	keep(cs.pairL, nL, omL, func(i int) float64 { return lo[i].Energy })
 	cs.dim = dim
 	if dim > maxCoherentDim {
