@@ -28,7 +28,7 @@ const (
 	// saturated regime of Goldreich, Keeley & Kwan (1973).
 	DefaultSaturation = 1e4
 	// DefaultTolerance: project default relative local error per step.
-	DefaultTolerance = 1e-4
+	DefaultTolerance = 2e-4
 	// DefaultGamma (s^-1): decay rate of the maser sublevels. Common
 	// practice, order of magnitude for SiO and H2O masers (value from
 	// memory: models of both use Gamma ~ 1-5 s^-1).

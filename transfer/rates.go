@@ -40,8 +40,12 @@ type rateSolver struct {
 	// pairs of lines sharing e with the storage index of their Schur
 	// complement entry: pairs[pOff[e]:pOff[e+1]].
 	eOff, eLines []int
-	pOff         []int
-	pairs        []linePair
+	// The kept states of the lines of eliminated state e lie in the
+	// contiguous range [k0[e], k0[e]+kw[e]) (states are ordered by M and
+	// a line changes M by at most 1): its Schur update is a dense rank-1
+	// update of that block, gathered into v.
+	k0, kw []int
+	v      []float64
 
 	// The kept matrix is stored as the upper triangle, banded (states are
 	// ordered by M and lines change M by at most 1, so kept states couple
@@ -57,8 +61,6 @@ type rateSolver struct {
 	sb   blas64.SymmetricBand
 	rhs  blas64.General
 }
-
-type linePair struct{ l1, l2, idx int }
 
 // solverCost estimates the flops of one class solve keeping the side whose
 // state of each line is given by kOf (eliminating eOf).
@@ -142,16 +144,20 @@ func newRateSolverSide(nU, nL int, lines []line, gU, gL float64, pumpU, pumpL []
 		rs.eLines[rs.eOff[e]+fill[e]] = l
 		fill[e]++
 	}
-	rs.pOff = make([]int, rs.nE+1)
+	rs.k0, rs.kw = make([]int, rs.nE), make([]int, rs.nE)
+	wmax := 0
 	for e := 0; e < rs.nE; e++ {
-		ls := rs.eLines[rs.eOff[e]:rs.eOff[e+1]]
-		for i, l1 := range ls {
-			for _, l2 := range ls[i:] {
-				rs.pairs = append(rs.pairs, linePair{l1, l2, index(rs.kOf[l1], rs.kOf[l2])})
-			}
+		lo, hi := nK, -1
+		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
+			lo, hi = min(lo, rs.kOf[l]), max(hi, rs.kOf[l])
 		}
-		rs.pOff[e+1] = len(rs.pairs)
+		if hi < lo {
+			lo, hi = 0, -1
+		}
+		rs.k0[e], rs.kw[e] = lo, hi-lo+1
+		wmax = max(wmax, rs.kw[e])
 	}
+	rs.v = make([]float64, wmax)
 	rs.diag = make([]int, nK)
 	for k := range rs.diag {
 		rs.diag[k] = index(k, k)
@@ -176,6 +182,10 @@ var errNotPositive = errors.New("rate matrix not positive definite")
 // velocity class with stimulated rates r[l] (units of Gamma) and Doppler
 // weight phi (the pump of the class is phi times the central pump).
 func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
+	if rs.nK == 1 {
+		rs.solveOne(r, phi, dn)
+		return nil
+	}
 	a := rs.a
 	for i := range a {
 		a[i] = 0
@@ -194,18 +204,35 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 	// Schur complement of the diagonal eliminated block:
 	// A -= R_ke R_k'e / d_e, rhs += R_ke pi_e / d_e.
 	for e := 0; e < rs.nE; e++ {
+		k0, w := rs.k0[e], rs.kw[e]
+		if w <= 0 {
+			continue
+		}
+		v := rs.v[:w]
+		for i := range v {
+			v[i] = 0
+		}
+		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
+			v[rs.kOf[l]-k0] = r[l]
+		}
 		inv := 1 / rs.dE[e]
 		pe := phi * rs.pE[e] * inv
-		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
-			rs.x[rs.kOf[l]] += r[l] * pe
-		}
-		for _, p := range rs.pairs[rs.pOff[e]:rs.pOff[e+1]] {
-			a[p.idx] -= r[p.l1] * r[p.l2] * inv
+		x := rs.x[k0 : k0+w]
+		for i, vi := range v {
+			if vi == 0 {
+				continue
+			}
+			x[i] += vi * pe
+			// Row k0+i of the upper triangle from the diagonal on is
+			// contiguous in both the banded and the dense storage.
+			c := vi * inv
+			row := a[rs.diag[k0+i] : rs.diag[k0+i]+w-i]
+			for j, vj := range v[i:] {
+				row[j] -= c * vj
+			}
 		}
 	}
 	switch {
-	case rs.nK == 1:
-		rs.x[0] /= a[0]
 	case rs.band:
 		t, ok := lapack64.Pbtrf(rs.sb)
 		if !ok {
@@ -236,4 +263,40 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 		}
 	}
 	return nil
+}
+
+// solveOne is solve for a single kept state (e.g. J=1-0 keeping the
+// lower M = 0): the Schur complement is a scalar, so the class is solved
+// in closed form,
+//
+//	x = (phi p_K + sum_e r_e phi p_e/d_e) / (g_K + sum_e r_e - sum_e r_e^2/d_e),
+//
+// with r_e the total rate of eliminated state e and d_e = g_E + r_e.
+func (rs *rateSolver) solveOne(r []float64, phi float64, dn []float64) {
+	re := rs.dE // total rate of each eliminated state
+	for e := range re {
+		re[e] = 0
+	}
+	for l, rl := range r {
+		re[rs.eOf[l]] += rl
+	}
+	a, x := rs.gK, phi*rs.pK[0]
+	for e, rv := range re {
+		d := rs.gE + rv
+		a += rv * rs.gE / d // r_e - r_e^2/d_e without cancellation
+		x += rv * phi * rs.pE[e] / d
+	}
+	x /= a
+	rs.x[0] = x
+	for e, rv := range re {
+		rs.nEv[e] = (phi*rs.pE[e] + rv*x) / (rs.gE + rv)
+		rs.dE[e] = rs.gE + rv
+	}
+	for l := range r {
+		if rs.keepUpper {
+			dn[l] = x - rs.nEv[rs.eOf[l]]
+		} else {
+			dn[l] = rs.nEv[rs.eOf[l]] - x
+		}
+	}
 }
