@@ -573,15 +573,18 @@ func (m *Model) populate(st *state, pos float64) error {
 			l := &m.lines[i]
 			y := m.y[l.q+1]
 			k := j + l.i0 + pad
-			rl := l.s * (l.w[0]*y[k-1] + l.w[1]*y[k] + l.w[2]*y[k+1] + l.w[3]*y[k+2])
+			yk := y[k-1 : k+3]
+			rl := l.s * (l.w[0]*yk[0] + l.w[1]*yk[1] + l.w[2]*yk[2] + l.w[3]*yk[3])
 			if rl < 0 { // rounding of a fully polarized beam, or overshoot in a steep wing
-				if rl < -1e-12*l.s*y[k] {
+				if rl < -1e-12*l.s*yk[1] {
 					m.clamped++
 				}
 				rl = 0
 			}
 			r[i] = rl
-			rmax = math.Max(rmax, rl)
+			if rl > rmax {
+				rmax = rl
+			}
 		}
 		if coh && rmax >= rFloor {
 			if err := m.cs.solve(m, st, j); err != nil {

@@ -226,8 +226,10 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 			// Row k0+i of the upper triangle from the diagonal on is
 			// contiguous in both the banded and the dense storage.
 			c := vi * inv
-			row := a[rs.diag[k0+i] : rs.diag[k0+i]+w-i]
-			for j, vj := range v[i:] {
+			vv := v[i:]
+			row := a[rs.diag[k0+i]:]
+			row = row[:len(vv)]
+			for j, vj := range vv {
 				row[j] -= c * vj
 			}
 		}
