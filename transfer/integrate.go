@@ -349,8 +349,7 @@ func (m *Model) denseAt(target, h float64) float64 {
 		if !(theta > ta && theta < tb) {
 			theta = (ta + tb) / 2
 		}
-		m.denseFill(theta, h)
-		f := math.Log(m.dense.sat) - lt
+		f := math.Log(m.denseSat(theta, h)) - lt
 		if math.Abs(f) <= checkpointEp || tb-ta < 1e-12 {
 			break
 		}
@@ -368,23 +367,57 @@ func (m *Model) denseAt(target, h float64) float64 {
 			side = 1
 		}
 	}
+	m.denseFill(theta, h)
 	return theta
+}
+
+// denseStokes is the dense output (see denseAt) of channel k at theta of
+// the step h.
+func (m *Model) denseStokes(k int, theta, h float64) [4]float64 {
+	c, md, e := m.cur, m.mid, m.end
+	a := 1 - 1.5*theta + 2*theta*theta/3
+	b := 2*theta - 4*theta*theta/3
+	g := -0.5*theta + 2*theta*theta/3
+	kt := Propagation{
+		EtaI: a*c.eI[k] + b*md.eI[k] + g*e.eI[k],
+		EtaQ: a*c.eQ[k] + b*md.eQ[k] + g*e.eQ[k],
+		EtaU: a*c.eU[k] + b*md.eU[k] + g*e.eU[k],
+		EtaV: a*c.eV[k] + b*md.eV[k] + g*e.eV[k],
+		RhoV: m.rhoV,
+	}
+	x := [4]float64{c.st[0][k], c.st[1][k], c.st[2][k], c.st[3][k]}
+	if m.rhoV == 0 {
+		return applyNoRho(kt.EtaI, kt.EtaQ, kt.EtaU, kt.EtaV, theta*h, x)
+	}
+	return applyGeneral(kt, theta*h, x)
+}
+
+// denseSat is the saturation measure of the dense output at theta of the
+// step h, evaluated on the line-centre channels alone (see saturation).
+func (m *Model) denseSat(theta, h float64) float64 {
+	yAt := func(q, k int) float64 {
+		w := &m.w[q]
+		if k < 0 || k >= m.n {
+			return w[0]*m.seed[0] + w[1]*m.seed[1] + w[2]*m.seed[3]
+		}
+		s := m.denseStokes(k, theta, h)
+		return w[0]*s[0] + w[1]*s[1] + w[2]*s[3]
+	}
+	sat := 0.0
+	for _, l := range m.lines {
+		sat = math.Max(sat, l.s*((1-l.cf)*yAt(l.q+1, l.ci)+l.cf*yAt(l.q+1, l.ci+1)))
+	}
+	return sat
 }
 
 // denseFill sets m.dense to the dense output at theta of the step h (see
 // denseAt), with its saturation measure.
 func (m *Model) denseFill(theta, h float64) {
-	c, md, e, d := m.cur, m.mid, m.end, m.dense
-	a := 1 - 1.5*theta + 2*theta*theta/3
-	b := 2*theta - 4*theta*theta/3
-	g := -0.5*theta + 2*theta*theta/3
+	c, e, d := m.cur, m.end, m.dense
 	for k := 0; k < m.n; k++ {
-		d.eI[k] = a*c.eI[k] + b*md.eI[k] + g*e.eI[k]
-		d.eQ[k] = a*c.eQ[k] + b*md.eQ[k] + g*e.eQ[k]
-		d.eU[k] = a*c.eU[k] + b*md.eU[k] + g*e.eU[k]
-		d.eV[k] = a*c.eV[k] + b*md.eV[k] + g*e.eV[k]
+		y := m.denseStokes(k, theta, h)
+		d.st[0][k], d.st[1][k], d.st[2][k], d.st[3][k] = y[0], y[1], y[2], y[3]
 	}
-	m.advance(&d.st, &c.st, d.eI, d.eQ, d.eU, d.eV, theta*h)
 	d.sat = m.saturation(&d.st)
 	d.coherent = c.coherent
 	if theta > 0.5 {

@@ -100,7 +100,7 @@ type Model struct {
 	warnings []string
 
 	cur, mid, end *state
-	dense         *state       // checkpoint inside a step (radiation and propagation only)
+	dense         *state       // checkpoint inside a step (radiation and saturation only)
 	y             [3][]float64 // 3 w.S per channel by q+1, padded
 	yc            [6][]float64 // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
 	r             []float64    // rates of one class
@@ -404,7 +404,6 @@ func (m *Model) setupScales() error {
 	for i := range m.dense.st {
 		m.dense.st[i] = make([]float64, m.n)
 	}
-	m.dense.eI, m.dense.eQ, m.dense.eU, m.dense.eV = make([]float64, m.n), make([]float64, m.n), make([]float64, m.n), make([]float64, m.n)
 	for q := range m.y {
 		m.y[q] = make([]float64, m.stride)
 	}

@@ -283,22 +283,23 @@ func (rs *rateSolver) solveOne(r []float64, phi float64, dn []float64) {
 		re[rs.eOf[l]] += rl
 	}
 	a, x := rs.gK, phi*rs.pK[0]
+	inv := rs.nEv // 1/d_e until the populations replace it
 	for e, rv := range re {
-		d := rs.gE + rv
-		a += rv * rs.gE / d // r_e - r_e^2/d_e without cancellation
-		x += rv * phi * rs.pE[e] / d
+		inv[e] = 1 / (rs.gE + rv)
+		a += rv * rs.gE * inv[e] // r_e - r_e^2/d_e without cancellation
+		x += rv * phi * rs.pE[e] * inv[e]
 	}
 	x /= a
 	rs.x[0] = x
 	for e, rv := range re {
-		rs.nEv[e] = (phi*rs.pE[e] + rv*x) / (rs.gE + rv)
+		rs.nEv[e] = (phi*rs.pE[e] + rv*x) * inv[e]
 		rs.dE[e] = rs.gE + rv
 	}
+	sign := 1.0 // dn = n_up - n_lo
+	if !rs.keepUpper {
+		sign = -1
+	}
 	for l := range r {
-		if rs.keepUpper {
-			dn[l] = x - rs.nEv[rs.eOf[l]]
-		} else {
-			dn[l] = rs.nEv[rs.eOf[l]] - x
-		}
+		dn[l] = sign * (x - rs.nEv[rs.eOf[l]])
 	}
 }
