@@ -100,6 +100,7 @@ type Model struct {
 	warnings []string
 
 	cur, mid, end *state
+	dense         *state       // checkpoint inside a step (radiation and saturation only)
 	y             [3][]float64 // 3 w.S per channel by q+1, padded
 	yc            [6][]float64 // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
 	r             []float64    // rates of one class
@@ -399,6 +400,10 @@ func (m *Model) setupScales() error {
 	}
 
 	m.cur, m.mid, m.end = m.newState(), m.newState(), m.newState()
+	m.dense = &state{}
+	for i := range m.dense.st {
+		m.dense.st[i] = make([]float64, m.n)
+	}
 	for q := range m.y {
 		m.y[q] = make([]float64, m.stride)
 	}
@@ -567,15 +572,18 @@ func (m *Model) populate(st *state, pos float64) error {
 			l := &m.lines[i]
 			y := m.y[l.q+1]
 			k := j + l.i0 + pad
-			rl := l.s * (l.w[0]*y[k-1] + l.w[1]*y[k] + l.w[2]*y[k+1] + l.w[3]*y[k+2])
+			yk := y[k-1 : k+3]
+			rl := l.s * (l.w[0]*yk[0] + l.w[1]*yk[1] + l.w[2]*yk[2] + l.w[3]*yk[3])
 			if rl < 0 { // rounding of a fully polarized beam, or overshoot in a steep wing
-				if rl < -1e-12*l.s*y[k] {
+				if rl < -1e-12*l.s*yk[1] {
 					m.clamped++
 				}
 				rl = 0
 			}
 			r[i] = rl
-			rmax = math.Max(rmax, rl)
+			if rl > rmax {
+				rmax = rl
+			}
 		}
 		if coh && rmax >= rFloor {
 			if err := m.cs.solve(m, st, j); err != nil {
@@ -666,11 +674,14 @@ func (m *Model) buildK(st *state) {
 		}
 	}
 	deposit := func(slot, i0 int, w [4]float64, coef float64, d []float64) {
-		// Channel k takes class k - i0 - t with weight w[t+1].
+		// Channel k takes class k - i0 - t with weight w[t+1]; only the
+		// channels that meet an active class [jlo, jhi) are touched (src
+		// is zero elsewhere).
 		base := slot*m.stride + pad - i0
 		src := st.src[base-2 : base+n+1]
 		w0, w1, w2, w3 := coef*w[0], coef*w[1], coef*w[2], coef*w[3]
-		for k := range d {
+		klo, khi := max(0, m.jlo+i0-1), min(n, m.jhi+i0+2)
+		for k := klo; k < khi; k++ {
 			// src[k+2] is class k - i0; src[k+3] is t = -1, src[k] is t = 2.
 			d[k] += w0*src[k+3] + w1*src[k+2] + w2*src[k+1] + w3*src[k]
 		}

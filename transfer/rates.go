@@ -2,6 +2,7 @@ package transfer
 
 import (
 	"errors"
+	"math"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -40,8 +41,12 @@ type rateSolver struct {
 	// pairs of lines sharing e with the storage index of their Schur
 	// complement entry: pairs[pOff[e]:pOff[e+1]].
 	eOff, eLines []int
-	pOff         []int
-	pairs        []linePair
+	// The kept states of the lines of eliminated state e lie in the
+	// contiguous range [k0[e], k0[e]+kw[e]) (states are ordered by M and
+	// a line changes M by at most 1): its Schur update is a dense rank-1
+	// update of that block, gathered into v.
+	k0, kw []int
+	v      []float64
 
 	// The kept matrix is stored as the upper triangle, banded (states are
 	// ordered by M and lines change M by at most 1, so kept states couple
@@ -54,11 +59,8 @@ type rateSolver struct {
 	dE   []float64 // eliminated diagonal
 	nEv  []float64 // eliminated populations
 	sym  blas64.Symmetric
-	sb   blas64.SymmetricBand
 	rhs  blas64.General
 }
-
-type linePair struct{ l1, l2, idx int }
 
 // solverCost estimates the flops of one class solve keeping the side whose
 // state of each line is given by kOf (eliminating eOf).
@@ -142,23 +144,26 @@ func newRateSolverSide(nU, nL int, lines []line, gU, gL float64, pumpU, pumpL []
 		rs.eLines[rs.eOff[e]+fill[e]] = l
 		fill[e]++
 	}
-	rs.pOff = make([]int, rs.nE+1)
+	rs.k0, rs.kw = make([]int, rs.nE), make([]int, rs.nE)
+	wmax := 0
 	for e := 0; e < rs.nE; e++ {
-		ls := rs.eLines[rs.eOff[e]:rs.eOff[e+1]]
-		for i, l1 := range ls {
-			for _, l2 := range ls[i:] {
-				rs.pairs = append(rs.pairs, linePair{l1, l2, index(rs.kOf[l1], rs.kOf[l2])})
-			}
+		lo, hi := nK, -1
+		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
+			lo, hi = min(lo, rs.kOf[l]), max(hi, rs.kOf[l])
 		}
-		rs.pOff[e+1] = len(rs.pairs)
+		if hi < lo {
+			lo, hi = 0, -1
+		}
+		rs.k0[e], rs.kw[e] = lo, hi-lo+1
+		wmax = max(wmax, rs.kw[e])
 	}
+	rs.v = make([]float64, wmax)
 	rs.diag = make([]int, nK)
 	for k := range rs.diag {
 		rs.diag[k] = index(k, k)
 	}
 	if rs.band {
 		rs.a = make([]float64, nK*(rs.kd+1))
-		rs.sb = blas64.SymmetricBand{Uplo: blas.Upper, N: nK, K: rs.kd, Stride: rs.kd + 1, Data: rs.a}
 	} else {
 		rs.a = make([]float64, nK*nK)
 		rs.sym = blas64.Symmetric{N: nK, Stride: nK, Data: rs.a, Uplo: blas.Upper}
@@ -176,6 +181,10 @@ var errNotPositive = errors.New("rate matrix not positive definite")
 // velocity class with stimulated rates r[l] (units of Gamma) and Doppler
 // weight phi (the pump of the class is phi times the central pump).
 func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
+	if rs.nK == 1 {
+		rs.solveOne(r, phi, dn)
+		return nil
+	}
 	a := rs.a
 	for i := range a {
 		a[i] = 0
@@ -194,24 +203,41 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 	// Schur complement of the diagonal eliminated block:
 	// A -= R_ke R_k'e / d_e, rhs += R_ke pi_e / d_e.
 	for e := 0; e < rs.nE; e++ {
+		k0, w := rs.k0[e], rs.kw[e]
+		if w <= 0 {
+			continue
+		}
+		v := rs.v[:w]
+		for i := range v {
+			v[i] = 0
+		}
+		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
+			v[rs.kOf[l]-k0] = r[l]
+		}
 		inv := 1 / rs.dE[e]
 		pe := phi * rs.pE[e] * inv
-		for _, l := range rs.eLines[rs.eOff[e]:rs.eOff[e+1]] {
-			rs.x[rs.kOf[l]] += r[l] * pe
-		}
-		for _, p := range rs.pairs[rs.pOff[e]:rs.pOff[e+1]] {
-			a[p.idx] -= r[p.l1] * r[p.l2] * inv
+		x := rs.x[k0 : k0+w]
+		for i, vi := range v {
+			if vi == 0 {
+				continue
+			}
+			x[i] += vi * pe
+			// Row k0+i of the upper triangle from the diagonal on is
+			// contiguous in both the banded and the dense storage.
+			c := vi * inv
+			vv := v[i:]
+			row := a[rs.diag[k0+i]:]
+			row = row[:len(vv)]
+			for j, vj := range vv {
+				row[j] -= c * vj
+			}
 		}
 	}
 	switch {
-	case rs.nK == 1:
-		rs.x[0] /= a[0]
 	case rs.band:
-		t, ok := lapack64.Pbtrf(rs.sb)
-		if !ok {
+		if !bandCholSolve(rs.a, rs.x, rs.nK, rs.kd) {
 			return errNotPositive
 		}
-		lapack64.Pbtrs(t, rs.rhs)
 	default:
 		t, ok := lapack64.Potrf(rs.sym)
 		if !ok {
@@ -236,4 +262,103 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 		}
 	}
 	return nil
+}
+
+// solveOne is solve for a single kept state (e.g. J=1-0 keeping the
+// lower M = 0): the Schur complement is a scalar, so the class is solved
+// in closed form,
+//
+//	x = (phi p_K + sum_e r_e phi p_e/d_e) / (g_K + sum_e r_e - sum_e r_e^2/d_e),
+//
+// with r_e the total rate of eliminated state e and d_e = g_E + r_e.
+func (rs *rateSolver) solveOne(r []float64, phi float64, dn []float64) {
+	re := rs.dE // total rate of each eliminated state
+	for e := range re {
+		re[e] = 0
+	}
+	for l, rl := range r {
+		re[rs.eOf[l]] += rl
+	}
+	a, x := rs.gK, phi*rs.pK[0]
+	inv := rs.nEv // 1/d_e until the populations replace it
+	for e, rv := range re {
+		inv[e] = 1 / (rs.gE + rv)
+		a += rv * rs.gE * inv[e] // r_e - r_e^2/d_e without cancellation
+		x += rv * phi * rs.pE[e] * inv[e]
+	}
+	x /= a
+	rs.x[0] = x
+	for e, rv := range re {
+		rs.nEv[e] = (phi*rs.pE[e] + rv*x) * inv[e]
+		rs.dE[e] = rs.gE + rv
+	}
+	sign := 1.0 // dn = n_up - n_lo
+	if !rs.keepUpper {
+		sign = -1
+	}
+	for l := range r {
+		dn[l] = sign * (x - rs.nEv[rs.eOf[l]])
+	}
+}
+
+// bandCholSolve factors the symmetric positive-definite band matrix whose
+// upper triangle a holds row by row (row i from the diagonal on, stride
+// kd+1: the layout of LAPACK's upper band storage transposed, as
+// blas64.SymmetricBand with Uplo Upper) as U^T U in place and overwrites
+// b with the solution of A x = b. It reports false when A is not positive
+// definite. This is LAPACK's unblocked dpbtf2/dpbtrs with the BLAS calls
+// written out: the class matrices are small (kd of a few to a few tens),
+// where the per-column calls of lapack64.Pbtrf cost more than the
+// arithmetic (a third of a hyperfine class solve in the profile);
+// TestBandCholSolve checks it against lapack64.
+func bandCholSolve(a, b []float64, n, kd int) bool {
+	ld := kd + 1
+	for i := 0; i < n; i++ {
+		ri := a[i*ld : i*ld+min(ld, n-i)]
+		d := ri[0]
+		if !(d > 0) {
+			return false
+		}
+		d = math.Sqrt(d)
+		ri[0] = d
+		u := ri[1:]
+		inv := 1 / d
+		for j := range u {
+			u[j] *= inv
+		}
+		// Trailing update A[i+1+p, i+1+q] -= u_p u_q for q >= p.
+		for p, up := range u {
+			if up == 0 {
+				continue
+			}
+			uu := u[p:]
+			row := a[(i+1+p)*ld:]
+			row = row[:len(uu)]
+			for q, uq := range uu {
+				row[q] -= up * uq
+			}
+		}
+	}
+	// U^T y = b (forward), then U x = y (backward).
+	for i := 0; i < n; i++ {
+		ri := a[i*ld : i*ld+min(ld, n-i)]
+		y := b[i] / ri[0]
+		b[i] = y
+		bb := b[i+1:]
+		bb = bb[:len(ri)-1]
+		for q, u := range ri[1:] {
+			bb[q] -= u * y
+		}
+	}
+	for i := n - 1; i >= 0; i-- {
+		ri := a[i*ld : i*ld+min(ld, n-i)]
+		s := b[i]
+		bb := b[i+1:]
+		bb = bb[:len(ri)-1]
+		for q, u := range ri[1:] {
+			s -= u * bb[q]
+		}
+		b[i] = s / ri[0]
+	}
+	return true
 }
