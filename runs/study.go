@@ -317,7 +317,7 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	if st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
 		// The tables are complete here: an interruption while drawing
 		// leaves a complete run with some figures missing (PlotError).
-		figs, err := PlotContext(ctx, dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
+		figs, err := PlotContext(ctx, dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Workers: opt.Workers, Progress: opt.Progress, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
 		rep.Figures = figs
 		if err != nil {
 			return rep, &PlotError{err}
