@@ -694,7 +694,7 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 		cols = t.Columns
 	}
 	err := writeAtomic(filepath.Join(dir, SummaryName), func(out io.Writer) error {
-		w := ecsv.NewWriter(out, cols, meta)
+		w := ecsv.NewWriterSize(out, ecsv.BufferSize, cols, meta)
 		for _, path := range done {
 			t, err := ecsv.ReadFile(path)
 			if err != nil {

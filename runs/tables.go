@@ -257,7 +257,7 @@ func writeSpectrum(buf io.Writer, st *config.Study, m *config.Model, tr *transfe
 	meta = append(meta, ecsv.Meta{Key: "max_r_over_gomega", Value: strconv.FormatFloat(maxR, 'g', -1, 64)})
 	// Seven significant digits (spectrumDigits): half the bytes of the
 	// exact form, far below any measurement's precision.
-	w := ecsv.NewWriter(buf, spectrumColumns, tableMeta(st, meta...)).SetDigits(spectrumDigits)
+	w := ecsv.NewWriterSize(buf, ecsv.BufferSize, spectrumColumns, tableMeta(st, meta...)).SetDigits(spectrumDigits)
 	vel := make([]float64, len(tr.Velocity))
 	for i, v := range tr.Velocity {
 		vel[i] = units.In(v, units.Velocity, "km/s")
