@@ -585,13 +585,13 @@ func plotSpectra(dir string, m *summaryModel, save saver) error {
 	}
 	// Split the long-form table by checkpoint.
 	type block struct {
-		sat      float64
-		from, to int
+		sat          float64
+		cp, from, to int
 	}
 	var blocks []block
 	for i := range ck {
 		if i == 0 || ck[i] != ck[i-1] {
-			blocks = append(blocks, block{sat: cols["saturation"][i], from: i})
+			blocks = append(blocks, block{sat: cols["saturation"][i], cp: int(ck[i]), from: i})
 		}
 		blocks[len(blocks)-1].to = i + 1
 	}
@@ -600,10 +600,25 @@ func plotSpectra(dir string, m *summaryModel, save saver) error {
 	}
 	last := blocks[len(blocks)-1]
 	vel := cols["velocity_kms"][last.from:last.to]
-	if len(blocks) == len(m.sat) {
-		m.pvSign = make([]float64, len(blocks))
+	// The sign of V at each checkpoint of the summary. With spectra at a
+	// subset of checkpoints (output.spectra = "decades") a checkpoint
+	// without its spectrum takes the sign of the nearest one written: the
+	// sign follows that of B cos theta (V = A dI/dv), which does not
+	// change along the column.
+	if len(blocks) <= len(m.sat) {
+		m.pvSign = make([]float64, len(m.sat))
+		signs := make([]float64, len(blocks))
 		for k, b := range blocks {
-			m.pvSign[k] = signOfV(cols["velocity_kms"][b.from:b.to], cols["I"][b.from:b.to], cols["V"][b.from:b.to])
+			signs[k] = signOfV(cols["velocity_kms"][b.from:b.to], cols["I"][b.from:b.to], cols["V"][b.from:b.to])
+		}
+		for i := range m.pvSign {
+			best := 0
+			for k, b := range blocks {
+				if math.Abs(float64(b.cp-i)) < math.Abs(float64(blocks[best].cp-i)) {
+					best = k
+				}
+			}
+			m.pvSign[i] = signs[best]
 		}
 	}
 	stokes := func(b block, norm bool) figures.Stokes {
