@@ -111,6 +111,8 @@
 //	output.dir                     -        "runs/<name>"  path, relative to the working directory          -
 //	output.plots                   -        true           true, false                                      -
 //	output.formats                 -        ["png", "svg"] any of "png", "svg", "pdf", "eps"                -
+//	output.spectra                 -        see right      "all", "decades": checkpoints in spectra/;       -
+//	                                                       default "all" up to 16 models, else "decades"
 //
 // The Doppler width is either line.doppler or line.temperature (with
 // optional line.turbulence), v_D = sqrt(2 k T / m + v_turb^2) with m the

@@ -497,6 +497,7 @@ func (ps *parser) expand(pd *parsed, specs []*spec) (*Study, *Error) {
 			Dir:     dir,
 			Plots:   pd.bools["output.plots"],
 			Formats: pd.strs["output.formats"],
+			Spectra: pd.str["output.spectra"],
 		},
 	}
 	if w := pd.species.UnverifiedWarning(); w != "" {

@@ -246,6 +246,8 @@ func schema() []*spec {
 		{table: "output", name: "dir", typ: tString, doc: "run directory, relative to the working directory; default \"runs/<name>\""},
 		{table: "output", name: "plots", typ: tBool, def: "true", doc: "write figures"},
 		{table: "output", name: "formats", typ: tStrings, enum: figureFormats, def: `["png", "svg"]`, doc: "figure formats"},
+		{table: "output", name: "spectra", typ: tEnum, enum: []string{SpectraAll, SpectraDecades}, example: `"decades"`,
+			doc: "checkpoints written to spectra/: \"all\", or \"decades\" (the first, the one nearest each power of ten of saturation, the last); default \"all\" for studies of at most 16 models, \"decades\" above"},
 	}
 }
 

@@ -24,6 +24,7 @@ var commented = map[string]bool{
 	"column.gain":      true,
 	"pump.component":   true,
 	"line.reference":   true,
+	"output.spectra":   true, // the default depends on the number of models
 	"pump.upper_f":     true,
 	"pump.lower_f":     true,
 }

@@ -29,7 +29,18 @@ type Output struct {
 	Dir     string   // run directory
 	Plots   bool     // write figures (default true)
 	Formats []string // figure formats, default ["png", "svg"]
+	// Spectra is SpectraAll, SpectraDecades, or "" when not set: the run
+	// chooses by the number of models (runs.SpectraCheckpoints). Unset,
+	// it is absent from the resolved config, so configs written before
+	// the key existed keep their hash.
+	Spectra string
 }
+
+// Values of output.spectra.
+const (
+	SpectraAll     = "all"
+	SpectraDecades = "decades"
+)
 
 // Study is a parsed, validated and expanded configuration.
 type Study struct {

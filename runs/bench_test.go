@@ -48,3 +48,23 @@ func BenchmarkStudy(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkFigures draws the figures of the 64-model study (study figures
+// only: more than MaxModelFigures models) on one and two workers. The
+// speed-up is t(workers=1) / t(workers=2); the target is >= 1.8 on two
+// idle cores.
+func BenchmarkFigures(b *testing.B) {
+	dir := b.TempDir()
+	if _, err := Execute(context.Background(), study(b, bench64), dir, Options{}); err != nil {
+		b.Fatal(err)
+	}
+	for _, w := range []int{1, 2} {
+		b.Run("workers="+strconv.Itoa(w), func(b *testing.B) {
+			for i := 0; i < b.N; i++ {
+				if _, err := Plot(dir, PlotOptions{Formats: []string{"png", "svg"}, Workers: w}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
+}

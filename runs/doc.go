@@ -14,9 +14,13 @@
 //	models/m0007.ecsv  the summary rows of one model, with its status; the
 //	                   record that the model is finished
 //	spectra/m0007.ecsv emergent Stokes spectra of one model at every
-//	                   checkpoint, long form, K, sky frame, with the
+//	                   checkpoint, or at a subset (output.spectra,
+//	                   SpectraCheckpoints: by default the decades of
+//	                   saturation for studies of more than MaxAllSpectra
+//	                   models), long form, K, sky frame, with the
 //	                   checkpoint's r_over_gomega and valid on each row
-//	plots/             figures drawn from the tables alone (see Plot)
+//	plots/             figures drawn from the tables alone (see Plot), on
+//	                   a pool of workers; the files do not depend on it
 //
 // The manifest records the status of every model before figures are
 // drawn, so a failure to draw (PlotError) leaves a complete record.

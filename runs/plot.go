@@ -4,14 +4,18 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
 	"regexp"
+	"runtime"
 	"slices"
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
+	"sync/atomic"
 
 	"maserpol/runs/ecsv"
 	"maserpol/runs/figures"
@@ -37,7 +41,14 @@ type PlotOptions struct {
 	// for any study; by default only studies of at most MaxModelFigures
 	// models get them (a large study would write two files per model).
 	Models bool
-	// saved, if not nil, sees every figure after it is written (tests).
+	// Workers draw figures at once; 0 = one per CPU core. The files do
+	// not depend on it.
+	Workers int
+	// Progress, if not nil, gets a progress line per figure drawn
+	// ("maserpol: figures [k/n]"), rewritten in place on a terminal.
+	Progress io.Writer
+	// saved, if not nil, sees every figure after it is written (tests);
+	// calls are serialized but, with several workers, not in order.
 	saved func(fig *figures.Stack, paths []string)
 }
 
@@ -105,48 +116,185 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 	}
 	removeTemps(pd)
 	removeOwnFigures(pd, formats)
-	var out []string
-	save := func(fig *figures.Stack, name string) error {
-		if err := ctx.Err(); err != nil {
-			return err
-		}
-		if !opt.Titles {
-			fig.Title = ""
-		}
-		p, err := fig.Save(filepath.Join(pd, name), formats)
-		out = append(out, p...)
-		if opt.saved != nil && err == nil {
-			opt.saved(fig, p)
-		}
-		if errors.Is(err, figures.ErrNoData) {
-			if opt.Note != nil {
-				opt.Note(fmt.Sprintf("figure %s skipped: %v", name, err))
-			}
-			return nil
-		}
-		return err
+	d := &drawer{ctx: ctx, pd: pd, formats: formats, opt: opt}
+	d.workers = opt.Workers
+	if d.workers <= 0 {
+		d.workers = runtime.NumCPU()
 	}
+	var out []string
 	if len(models) <= MaxModelFigures || opt.Models {
+		// Per-model figures first: they also find the sign of P_V that
+		// the study figures draw (summaryModel.pvSign). Each job touches
+		// only its own model.
+		n := 0
 		for _, m := range models {
-			if err := plotSpectra(dir, m, save); err != nil {
+			n += 1 + min(1, len(m.sat)-1)
+		}
+		p, err := d.run(n, len(models), func(i int, save saver) error { return plotSpectra(dir, models[i], save) })
+		out = append(out, p...)
+		if err != nil {
+			return out, err
+		}
+	} else {
+		// No per-model figures, but the study figures still need the
+		// sign of P_V of every model: read the spectra for it.
+		for _, m := range models {
+			if err := ctx.Err(); err != nil {
+				return out, err
+			}
+			if err := plotSpectra(dir, m, nil); err != nil {
 				return out, err
 			}
 		}
-	} else if opt.Note != nil {
-		opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
+		if opt.Note != nil {
+			opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
+		}
+	}
+	// The study figures are cheap to build and costly to draw: build them
+	// all in order, then draw them on the pool.
+	var jobs []figJob
+	collect := func(fig *figures.Stack, name string) error {
+		jobs = append(jobs, figJob{fig, name})
+		return nil
 	}
 	if random {
-		err = plotSpread(models, save)
+		err = plotSpread(models, collect)
 	} else {
-		err = plotSaturation(models, save)
+		err = plotSaturation(models, collect)
+	}
+	if err == nil {
+		err = plotTheta(models, random, collect)
 	}
 	if err != nil {
 		return out, err
 	}
-	if err := plotTheta(models, random, save); err != nil {
-		return out, err
+	p, err := d.run(len(jobs), len(jobs), func(i int, save saver) error { return save(jobs[i].fig, jobs[i].name) })
+	return append(out, p...), err
+}
+
+// figJob is a study figure waiting to be drawn.
+type figJob struct {
+	fig  *figures.Stack
+	name string
+}
+
+// drawer draws figures on a pool of workers. The figures of each job are
+// collected in the job's slot and joined in job order, so the files
+// written, the list returned and the notes are those of a serial draw
+// whatever the number of workers.
+type drawer struct {
+	ctx     context.Context
+	pd      string
+	formats []string
+	opt     PlotOptions
+	workers int
+
+	mu   sync.Mutex // guards done, opt.saved and the progress writer
+	done int
+}
+
+// jobResult is what one job wrote.
+type jobResult struct {
+	paths []string
+	notes []string
+	err   error
+}
+
+// run does jobs 0..njobs-1, which draw about nfig figures in total (the
+// progress count), and returns the files written in job order and the
+// error of the first failing job.
+func (d *drawer) run(nfig, njobs int, job func(i int, save saver) error) ([]string, error) {
+	res := make([]jobResult, njobs)
+	d.done = 0
+	next := make(chan int)
+	var failed atomic.Bool // a serial draw stops at the first error
+	var wg sync.WaitGroup
+	for w := 0; w < min(d.workers, njobs); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for i := range next {
+				r := &res[i]
+				r.err = job(i, func(fig *figures.Stack, name string) error { return d.save(r, nfig, fig, name) })
+				if r.err != nil {
+					failed.Store(true)
+				}
+			}
+		}()
 	}
-	return out, nil
+	for i := 0; i < njobs; i++ {
+		if d.ctx.Err() != nil {
+			res[i].err = d.ctx.Err()
+			break
+		}
+		if failed.Load() {
+			break
+		}
+		next <- i
+	}
+	close(next)
+	wg.Wait()
+	d.progressEnd(nfig)
+	var out []string
+	var first error
+	for _, r := range res {
+		out = append(out, r.paths...)
+		for _, n := range r.notes {
+			if d.opt.Note != nil {
+				d.opt.Note(n)
+			}
+		}
+		if r.err != nil && first == nil {
+			first = r.err
+		}
+	}
+	return out, first
+}
+
+// save draws one figure of a job.
+func (d *drawer) save(r *jobResult, nfig int, fig *figures.Stack, name string) error {
+	if err := d.ctx.Err(); err != nil {
+		return err
+	}
+	if !d.opt.Titles {
+		fig.Title = ""
+	}
+	p, err := fig.Save(filepath.Join(d.pd, name), d.formats)
+	r.paths = append(r.paths, p...)
+	d.mu.Lock()
+	if d.opt.saved != nil && err == nil {
+		d.opt.saved(fig, p)
+	}
+	d.done++
+	d.progress(nfig, name)
+	d.mu.Unlock()
+	if errors.Is(err, figures.ErrNoData) {
+		r.notes = append(r.notes, fmt.Sprintf("figure %s skipped: %v", name, err))
+		return nil
+	}
+	return err
+}
+
+// progress reports a drawn figure in the style of the model progress: a
+// line rewritten in place on a terminal, one line per figure otherwise
+// (log files, job schedulers). d.mu is held.
+func (d *drawer) progress(nfig int, name string) {
+	w := d.opt.Progress
+	if w == nil {
+		return
+	}
+	n := max(nfig, d.done)
+	if isTerminal(w) {
+		fmt.Fprintf(w, "\rmaserpol: figures [%d/%d]", d.done, n)
+		return
+	}
+	fmt.Fprintf(w, "maserpol: figures [%d/%d] %s\n", d.done, n, name)
+}
+
+func (d *drawer) progressEnd(nfig int) {
+	if w := d.opt.Progress; w != nil && d.done > 0 && isTerminal(w) {
+		fmt.Fprintln(w)
+	}
 }
 
 // saver writes one figure under a base name in plots/.
@@ -432,6 +580,9 @@ func roundoffNote(name string, ms []*summaryModel) string {
 	return name + " = 0 (below 1e-9 of the peak of I)"
 }
 
+// plotSpectra draws the per-model figures of m and finds the sign of its
+// P_V at every checkpoint (m.pvSign); with a nil save it finds the signs
+// only.
 func plotSpectra(dir string, m *summaryModel, save saver) error {
 	t, err := ecsv.ReadFile(filepath.Join(dir, "spectra", m.name+".ecsv"))
 	if err != nil {
@@ -449,13 +600,13 @@ func plotSpectra(dir string, m *summaryModel, save saver) error {
 	}
 	// Split the long-form table by checkpoint.
 	type block struct {
-		sat      float64
-		from, to int
+		sat          float64
+		cp, from, to int
 	}
 	var blocks []block
 	for i := range ck {
 		if i == 0 || ck[i] != ck[i-1] {
-			blocks = append(blocks, block{sat: cols["saturation"][i], from: i})
+			blocks = append(blocks, block{sat: cols["saturation"][i], cp: int(ck[i]), from: i})
 		}
 		blocks[len(blocks)-1].to = i + 1
 	}
@@ -464,11 +615,29 @@ func plotSpectra(dir string, m *summaryModel, save saver) error {
 	}
 	last := blocks[len(blocks)-1]
 	vel := cols["velocity_kms"][last.from:last.to]
-	if len(blocks) == len(m.sat) {
-		m.pvSign = make([]float64, len(blocks))
+	// The sign of V at each checkpoint of the summary. With spectra at a
+	// subset of checkpoints (output.spectra = "decades") a checkpoint
+	// without its spectrum takes the sign of the nearest one written: the
+	// sign follows that of B cos theta (V = A dI/dv), which does not
+	// change along the column.
+	if len(blocks) <= len(m.sat) {
+		m.pvSign = make([]float64, len(m.sat))
+		signs := make([]float64, len(blocks))
 		for k, b := range blocks {
-			m.pvSign[k] = signOfV(cols["velocity_kms"][b.from:b.to], cols["I"][b.from:b.to], cols["V"][b.from:b.to])
+			signs[k] = signOfV(cols["velocity_kms"][b.from:b.to], cols["I"][b.from:b.to], cols["V"][b.from:b.to])
 		}
+		for i := range m.pvSign {
+			best := 0
+			for k, b := range blocks {
+				if math.Abs(float64(b.cp-i)) < math.Abs(float64(blocks[best].cp-i)) {
+					best = k
+				}
+			}
+			m.pvSign[i] = signs[best]
+		}
+	}
+	if save == nil { // signs only (per-model figures not drawn)
+		return nil
 	}
 	stokes := func(b block, norm bool) figures.Stokes {
 		s := figures.Stokes{Label: satText(b.sat)}

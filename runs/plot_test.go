@@ -1,6 +1,7 @@
 package runs
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"math"
@@ -364,11 +365,94 @@ func TestPerModelFiguresOnlyForSmallStudies(t *testing.T) {
 	if !strings.Contains(strings.Join(rep.Notes, " "), "per-model figures skipped for 24 models") {
 		t.Errorf("no note about the skipped figures: %q", rep.Notes)
 	}
+	// Without per-model figures the study figures still get the sign of
+	// P_V of every model (from the spectra alone).
+	sum, err := ecsv.ReadFile(SummaryPath(dir))
+	if err != nil {
+		t.Fatal(err)
+	}
+	models, err := readSummary(sum)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range models {
+		if err := plotSpectra(dir, m, nil); err != nil {
+			t.Fatal(err)
+		}
+		if len(m.pvSign) != len(m.sat) {
+			t.Fatalf("model %s: %d signs for %d checkpoints", m.name, len(m.pvSign), len(m.sat))
+		}
+	}
 	figs, err := Plot(dir, PlotOptions{Formats: []string{"svg"}, Models: true})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if n := perModel(figs); n != 48 {
 		t.Errorf("with Models: %d per-model figures, want 48", n)
+	}
+}
+
+// TestParallelFiguresMatchSerial: figures drawn on several workers are the
+// same files, byte for byte, in the same order, with the same notes, as
+// drawn on one; the progress counts every figure. Run with -race, it also
+// checks that gonum/plot and the Scripts text handler draw concurrently
+// without data races (shared font cache).
+func TestParallelFiguresMatchSerial(t *testing.T) {
+	dir := t.TempDir()
+	execute(t, study(t, cfg2x3), dir, Options{})
+	draw := func(workers int) (files []string, data map[string][]byte, notes []string, progress string) {
+		var buf strings.Builder
+		figs, err := Plot(dir, PlotOptions{Formats: []string{"png", "svg"}, Workers: workers, Progress: &buf,
+			Note: func(n string) { notes = append(notes, n) }})
+		if err != nil {
+			t.Fatal(err)
+		}
+		data = map[string][]byte{}
+		for _, f := range figs {
+			b, err := os.ReadFile(f)
+			if err != nil {
+				t.Fatal(err)
+			}
+			data[f] = b
+		}
+		ents, _ := os.ReadDir(filepath.Join(dir, "plots"))
+		if len(ents) != len(figs) {
+			t.Errorf("workers=%d: %d files in plots/, %d returned", workers, len(ents), len(figs))
+		}
+		return figs, data, notes, buf.String()
+	}
+	f1, d1, n1, p1 := draw(1)
+	f4, d4, n4, p4 := draw(4)
+	if strings.Join(f1, "\n") != strings.Join(f4, "\n") {
+		t.Fatalf("files differ:\n%v\n%v", f1, f4)
+	}
+	if strings.Join(n1, "\n") != strings.Join(n4, "\n") {
+		t.Errorf("notes differ: %q, %q", n1, n4)
+	}
+	for _, f := range f1 {
+		if !bytes.Equal(d1[f], d4[f]) {
+			t.Errorf("%s differs between 1 and 4 workers", filepath.Base(f))
+		}
+	}
+	// 6 models x (spectra + evolution) + saturation + theta, two formats.
+	if len(f1) != 2*14 {
+		t.Errorf("%d files, want 28", len(f1))
+	}
+	for _, p := range []string{p1, p4} {
+		if !strings.Contains(p, "maserpol: figures [12/12] ") || !strings.Contains(p, "maserpol: figures [2/2] ") {
+			t.Errorf("progress lines missing:\n%s", p)
+		}
+	}
+}
+
+// TestPlotCancelled: a cancelled context stops the drawing with its error.
+func TestPlotCancelled(t *testing.T) {
+	dir := t.TempDir()
+	execute(t, study(t, cfg2x3), dir, Options{})
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	figs, err := PlotContext(ctx, dir, PlotOptions{Formats: []string{"svg"}, Workers: 2})
+	if !errors.Is(err, context.Canceled) || len(figs) != 0 {
+		t.Errorf("cancelled: %v, %d figures", err, len(figs))
 	}
 }

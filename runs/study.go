@@ -317,7 +317,7 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	if st.Output.Plots && !opt.NoPlots && opt.Shard.All() {
 		// The tables are complete here: an interruption while drawing
 		// leaves a complete run with some figures missing (PlotError).
-		figs, err := PlotContext(ctx, dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
+		figs, err := PlotContext(ctx, dir, PlotOptions{Formats: st.Output.Formats, Titles: opt.Titles, Workers: opt.Workers, Progress: opt.Progress, Note: func(n string) { rep.Notes = append(rep.Notes, n) }})
 		rep.Figures = figs
 		if err != nil {
 			return rep, &PlotError{err}
@@ -694,7 +694,7 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 		cols = t.Columns
 	}
 	err := writeAtomic(filepath.Join(dir, SummaryName), func(out io.Writer) error {
-		w := ecsv.NewWriter(out, cols, meta)
+		w := ecsv.NewWriterSize(out, ecsv.BufferSize, cols, meta)
 		for _, path := range done {
 			t, err := ecsv.ReadFile(path)
 			if err != nil {

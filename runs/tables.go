@@ -257,12 +257,17 @@ func writeSpectrum(buf io.Writer, st *config.Study, m *config.Model, tr *transfe
 	meta = append(meta, ecsv.Meta{Key: "max_r_over_gomega", Value: strconv.FormatFloat(maxR, 'g', -1, 64)})
 	// Seven significant digits (spectrumDigits): half the bytes of the
 	// exact form, far below any measurement's precision.
-	w := ecsv.NewWriter(buf, spectrumColumns, tableMeta(st, meta...)).SetDigits(spectrumDigits)
 	vel := make([]float64, len(tr.Velocity))
 	for i, v := range tr.Velocity {
 		vel[i] = units.In(v, units.Velocity, "km/s")
 	}
-	for k, cp := range tr.Checkpoints {
+	keep := SpectraCheckpoints(st, tr)
+	if len(keep) < len(tr.Checkpoints) {
+		meta = append(meta, ecsv.Meta{Key: "spectra_checkpoints", Value: fmt.Sprintf("%d of %d (output.spectra = %q)", len(keep), len(tr.Checkpoints), config.SpectraDecades)})
+	}
+	w := ecsv.NewWriterSize(buf, ecsv.BufferSize, spectrumColumns, tableMeta(st, meta...)).SetDigits(spectrumDigits)
+	for _, k := range keep {
+		cp := tr.Checkpoints[k]
 		if len(cp.I) != len(vel) || len(cp.Q) != len(vel) || len(cp.U) != len(vel) || len(cp.V) != len(vel) {
 			return &contentError{fmt.Errorf("model %s checkpoint %d: spectra have %d/%d/%d/%d channels, grid has %d", m.Name, k, len(cp.I), len(cp.Q), len(cp.U), len(cp.V), len(vel))}
 		}
@@ -313,4 +318,66 @@ func SummaryPath(dir string) string {
 func fileExists(p string) bool {
 	_, err := os.Stat(p)
 	return err == nil
+}
+
+// MaxAllSpectra is the largest study whose spectra/ tables hold every
+// checkpoint when output.spectra is not set (the same bound as the
+// per-model figures, which show the spectra's evolution).
+const MaxAllSpectra = MaxModelFigures
+
+// SpectraCheckpoints returns the indices of the checkpoints of tr written
+// to its spectra table, in order. With output.spectra = "all" (the default
+// for studies of at most MaxAllSpectra models) that is every checkpoint;
+// with "decades" (the default above) the first, the last, and for each
+// power of ten of saturation within the column the checkpoint nearest to
+// it in log saturation, if within half a decade. The summary and models/
+// tables always hold every checkpoint; the checkpoint column keeps its
+// index, so spectra rows still match summary rows.
+func SpectraCheckpoints(st *config.Study, tr *transfer.Trajectory) []int {
+	n := len(tr.Checkpoints)
+	mode := st.Output.Spectra
+	if mode == "" {
+		mode = config.SpectraAll
+		if len(st.Models) > MaxAllSpectra {
+			mode = config.SpectraDecades
+		}
+	}
+	all := make([]int, n)
+	for i := range all {
+		all[i] = i
+	}
+	if mode == config.SpectraAll || n <= 2 {
+		return all
+	}
+	keep := make([]bool, n)
+	keep[0], keep[n-1] = true, true
+	lo, hi := math.Inf(1), math.Inf(-1)
+	logs := make([]float64, n)
+	for i, cp := range tr.Checkpoints {
+		logs[i] = math.NaN()
+		if cp.Saturation > 0 && !math.IsInf(cp.Saturation, 0) {
+			logs[i] = math.Log10(cp.Saturation)
+			lo, hi = math.Min(lo, logs[i]), math.Max(hi, logs[i])
+		}
+	}
+	if lo <= hi {
+		for p := math.Floor(lo); p <= math.Ceil(hi); p++ {
+			best := -1
+			for i, x := range logs {
+				if !math.IsNaN(x) && (best < 0 || math.Abs(x-p) < math.Abs(logs[best]-p)) {
+					best = i
+				}
+			}
+			if best >= 0 && math.Abs(logs[best]-p) <= 0.5 {
+				keep[best] = true
+			}
+		}
+	}
+	out := all[:0]
+	for i, k := range keep {
+		if k {
+			out = append(out, i)
+		}
+	}
+	return out
 }

@@ -155,6 +155,7 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	formats := fs.String("format", "", "comma-separated figure `formats` among png, svg, pdf, eps (default: output.formats of the run's config.toml, else png,svg)")
 	titles := fs.Bool("titles", false, "put a title above each figure (journal figures have none; default off)")
 	perModel := fs.Bool("models", false, "draw the per-model figures (<model>_spectra, _evolution) for any study (default: for studies of at most 16 models)")
+	workers := fs.Int("workers", 0, "number of figures drawn at once; 0 = one per CPU core (the default); the figures do not depend on it")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return flagExit(err)
@@ -162,6 +163,9 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	if len(pos) != 1 {
 		fs.Usage()
 		return exitInput
+	}
+	if *workers < 0 {
+		return report(stderr, usagef("--workers must be >= 0 (0 = one per CPU core; got %d)", *workers))
 	}
 	dir := pos[0]
 	if _, err := os.Stat(runs.SummaryPath(dir)); err != nil {
@@ -176,7 +180,7 @@ func cmdPlot(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		return report(stderr, err)
 	}
 	defer lock.Unlock()
-	figs, err := runs.Plot(dir, runs.PlotOptions{Formats: fm, Titles: *titles, Models: *perModel, Note: noteTo(stderr)})
+	figs, err := runs.PlotContext(ctx, dir, runs.PlotOptions{Formats: fm, Titles: *titles, Models: *perModel, Workers: *workers, Progress: stderr, Note: noteTo(stderr)})
 	if err != nil {
 		return report(stderr, err)
 	}
@@ -245,7 +249,7 @@ func cmdMerge(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 			return report(stderr, err)
 		}
 		defer lock.Unlock()
-		figs, err := runs.Plot(pos[0], runs.PlotOptions{Formats: fm, Titles: *titles, Note: noteTo(stderr)})
+		figs, err := runs.Plot(pos[0], runs.PlotOptions{Formats: fm, Titles: *titles, Progress: stderr, Note: noteTo(stderr)})
 		if err != nil {
 			return report(stderr, err)
 		}

@@ -334,3 +334,39 @@ func TestSetDigits(t *testing.T) {
 		t.Errorf("more than 7 digits written:\n%s", b.String())
 	}
 }
+
+// countWriter counts the writes that reach it.
+type countWriter struct {
+	bytes.Buffer
+	writes int
+}
+
+func (c *countWriter) Write(p []byte) (int, error) { c.writes++; return c.Buffer.Write(p) }
+
+// TestNewWriterSize: the same bytes as NewWriter, in writes of BufferSize
+// (a 64 KiB buffer, not bufio's 4 KiB default).
+func TestNewWriterSize(t *testing.T) {
+	cols := []Column{{Name: "x", Datatype: Float64}, {Name: "y", Datatype: Float64}}
+	fill := func(w *Writer) {
+		for i := 0; i < 20000; i++ {
+			if err := w.Float(float64(i) / 3).Float(float64(i) * 1e-7).End(); err != nil {
+				t.Fatal(err)
+			}
+		}
+		if err := w.Flush(); err != nil {
+			t.Fatal(err)
+		}
+	}
+	var small, large countWriter
+	fill(NewWriter(&small, cols, nil))
+	fill(NewWriterSize(&large, BufferSize, cols, nil))
+	if !bytes.Equal(small.Bytes(), large.Bytes()) {
+		t.Fatal("NewWriterSize writes other bytes than NewWriter")
+	}
+	if want := large.Len()/BufferSize + 1; large.writes > want {
+		t.Errorf("%d writes for %d bytes, want at most %d", large.writes, large.Len(), want)
+	}
+	if small.writes <= large.writes {
+		t.Errorf("4 KiB buffer: %d writes, 64 KiB: %d", small.writes, large.writes)
+	}
+}

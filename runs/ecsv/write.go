@@ -48,6 +48,10 @@ type Writer struct {
 // on an unknown datatype or an empty or repeated column name: column sets
 // are chosen by the program, not by users.
 func NewWriter(w io.Writer, cols []Column, meta []Meta) *Writer {
+	return newWriter(bufio.NewWriter(w), cols, meta)
+}
+
+func newWriter(w *bufio.Writer, cols []Column, meta []Meta) *Writer {
 	seen := map[string]bool{}
 	for _, c := range cols {
 		switch c.Datatype {
@@ -60,7 +64,19 @@ func NewWriter(w io.Writer, cols []Column, meta []Meta) *Writer {
 		}
 		seen[c.Name] = true
 	}
-	return &Writer{w: bufio.NewWriter(w), cols: cols, meta: meta}
+	return &Writer{w: w, cols: cols, meta: meta}
+}
+
+// BufferSize is the buffer of NewWriterSize for large tables: 64 KiB, so
+// that a spectra table or a summary reaches the file in few system calls
+// (bufio's default is 4 KiB).
+const BufferSize = 64 << 10
+
+// NewWriterSize is NewWriter with a buffer of size bytes (BufferSize for
+// large tables). If w is already a *bufio.Writer at least that large, it
+// is used as is.
+func NewWriterSize(w io.Writer, size int, cols []Column, meta []Meta) *Writer {
+	return newWriter(bufio.NewWriterSize(w, size), cols, meta)
 }
 
 // NewPlainWriter returns a Writer of plain CSV: a header row of column

@@ -284,3 +284,35 @@ func TestFitShiftAtBound(t *testing.T) {
 		t.Errorf("unbounded: shift %.1f m/s, scale %.4f, at bound %v; want 8000, 3, false", u.Shift, u.Scale, u.ShiftAtBound)
 	}
 }
+
+// TestRankWithDecadeSpectra: a run that keeps spectra at the decades only
+// (output.spectra = "decades", the default of large studies) still ranks:
+// the true model and checkpoint (6, R/Gamma = 10, one of the decades) come
+// first, and the reader says which checkpoints it could use.
+func TestRankWithDecadeSpectra(t *testing.T) {
+	st, err := config.Load(filepath.Join(obsDir, "study.toml"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	st.Output.Spectra = config.SpectraDecades
+	dir := filepath.Join(t.TempDir(), "run")
+	if _, err := runs.Execute(context.Background(), st, dir, runs.Options{Workers: 2, NoPlots: true}); err != nil {
+		t.Fatal(err)
+	}
+	models, warn, err := ReadRunDir(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 10 checkpoints, 3 per decade from 0.1 to 100: 0.1, 1, 10, 100 kept.
+	if len(warn) != 1 || !strings.Contains(warn[0], "4 of 4 models hold 4 of their 10 checkpoints") || !strings.Contains(warn[0], "R/Gamma = 0.1, 1, 10, 1e+02") {
+		t.Errorf("warnings: %q", warn)
+	}
+	obs, err := ReadObserved(filepath.Join(obsDir, "kestrel9-sio.ecsv"), ReadOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	best := Rank(obs, models, FitOptions{})[0]
+	if best.Model.Name != "m0002" || best.Best.Checkpoint != 6 {
+		t.Errorf("best %s at checkpoint %d, want m0002 at 6", best.Model.Name, best.Best.Checkpoint)
+	}
+}

@@ -5,6 +5,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 
 	"maserpol/config/units"
 	"maserpol/runs"
@@ -98,6 +99,8 @@ func ReadRunDir(dir string) ([]RunModel, []string, error) {
 		validOf[n][int(cps[i])] = valid[i]
 	}
 	var warn []string
+	subset, subsetOf := 0, 0 // models with spectra at fewer checkpoints than the summary
+	var subsetSat []string
 	out := models[:0]
 	for _, m := range models {
 		sp, err := ReadModelSpectra(filepath.Join(dir, "spectra", m.Name+".ecsv"))
@@ -109,6 +112,15 @@ func ReadRunDir(dir string) ([]RunModel, []string, error) {
 			return nil, nil, err
 		}
 		m.Spectra = sp
+		if len(sp) < len(rgOf[m.Name]) {
+			if subset == 0 {
+				for _, s := range sp {
+					subsetSat = append(subsetSat, strconv.FormatFloat(s.Saturation, 'g', 2, 64))
+				}
+				subsetOf = len(rgOf[m.Name])
+			}
+			subset++
+		}
 		m.RoverGOmega = make([]float64, len(sp))
 		m.Valid = make([]bool, len(sp))
 		for i, s := range sp {
@@ -119,6 +131,12 @@ func ReadRunDir(dir string) ([]RunModel, []string, error) {
 	}
 	if len(out) == 0 {
 		return nil, warn, fmt.Errorf("%s: no model has a spectrum", dir)
+	}
+	if subset > 0 {
+		// A large study keeps spectra at a subset of its checkpoints
+		// (output.spectra = "decades", runs.SpectraCheckpoints).
+		warn = append(warn, fmt.Sprintf("the spectra of %d of %d models hold %d of their %d checkpoints (output.spectra = \"decades\"; first model: R/Gamma = %s): models are fitted at those checkpoints only; set output.spectra = \"all\" in the config and run again for every checkpoint",
+			subset, len(out), len(subsetSat), subsetOf, strings.Join(subsetSat, ", ")))
 	}
 	return out, warn, nil
 }
