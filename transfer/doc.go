@@ -124,7 +124,7 @@
 //
 // Once the density matrix is in use, a velocity class whose largest rate
 // stays below classCoherentFrom x g Omega (AutoCoherenceFrom for Auto,
-// 1e-7 for Density: the far wings of a narrowed line) is solved by the
+// 1e-5 for Density: the far wings of a narrowed line) is solved by the
 // rate equations, which agree with it to second order in that ratio.
 //
 // The coherence set keeps a pair of eigenstates of one level when their

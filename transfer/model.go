@@ -517,12 +517,14 @@ func (m *Model) useCoherent(sat float64) bool {
 
 // classCoherentFrom is the R/(g Omega) of a class below which the density
 // matrix, once in use, leaves the class to the rate equations: the
-// automatic model's threshold for Auto, and 1e-7 for Density, where the
-// neglected coherences (~1e-7 of the populations) change nothing
-// reported (project choices; physics.md section 8).
+// automatic model's threshold for Auto, and 1e-5 for Density, where the
+// neglected coherences (~1e-5 of the populations, in far-wing classes
+// that feed channels well below the peak) change nothing reported
+// (project choices; physics.md section 8; the SciPy comparison runs with
+// it).
 func (m *Model) classCoherentFrom() float64 {
 	if m.p.Population == Density {
-		return 1e-7
+		return 1e-5
 	}
 	return AutoCoherenceFrom
 }
