@@ -126,23 +126,11 @@ func cmdDiagnose(ctx context.Context, args []string, stdout, stderr io.Writer) i
 		}
 	}
 	base := transfer.Params{Species: sp}
-	if *fwhm != "" {
-		w, err := units.ParsePlain(*fwhm, units.Velocity, "km/s")
-		if err != nil || !(w > 0) {
-			return report(stderr, usagef("--fwhm %q: need a velocity > 0 (allowed units: %s)", *fwhm, units.Allowed(units.Velocity)))
-		}
-		base.Doppler = w / (2 * math.Sqrt(math.Ln2))
-	} else {
-		w, err := units.ParsePlain(*doppler, units.Velocity, "km/s")
-		if err != nil || !(w > 0) {
-			return report(stderr, usagef("--doppler %q: need a velocity > 0 (allowed units: %s)", *doppler, units.Allowed(units.Velocity)))
-		}
-		base.Doppler = w
+	vd, g, err := lineWidthAndGamma(*doppler, *fwhm, *gamma)
+	if err != nil {
+		return report(stderr, err)
 	}
-	g, err := units.ParsePlain(*gamma, units.Rate, "s^-1")
-	if err != nil || !(g > 0) {
-		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
-	}
+	base.Doppler = vd
 	base.GammaUpper, base.GammaLower = g, g
 	if *field != "" {
 		b, err := units.ParsePlain(*field, units.Field, "G")
@@ -329,6 +317,29 @@ func parseRange(s string, k units.Kind, plainUnit, flagName string) (lo, hi floa
 // saturation scale R/Gamma means the same in run, diagnose and
 // zeeman-factor.
 func defaultGamma() string { return strconv.FormatFloat(transfer.DefaultGamma, 'g', -1, 64) + " s^-1" }
+
+// lineWidthAndGamma parses the line-width flags (--doppler, or --fwhm
+// when given) and --gamma, each a bare number in km/s and s^-1 or a
+// quantity with its unit: the 1/e half-width v_D (m/s) and the decay rate
+// (s^-1) of the models a command runs.
+func lineWidthAndGamma(doppler, fwhm, gamma string) (vd, g float64, err error) {
+	vs, vname := doppler, "doppler"
+	if fwhm != "" {
+		vs, vname = fwhm, "fwhm"
+	}
+	w, err := units.ParsePlain(vs, units.Velocity, "km/s")
+	if err != nil || !(w > 0) {
+		return 0, 0, usagef("--%s %q: need a velocity > 0 (allowed units: %s)", vname, vs, units.Allowed(units.Velocity))
+	}
+	if vname == "fwhm" {
+		w /= 2 * math.Sqrt(math.Ln2)
+	}
+	g, err = units.ParsePlain(gamma, units.Rate, "s^-1")
+	if err != nil || !(g > 0) {
+		return 0, 0, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", gamma, units.Allowed(units.Rate))
+	}
+	return w, g, nil
+}
 
 // numberPrefix returns the length of the leading number of s.
 func numberPrefix(s string) int {

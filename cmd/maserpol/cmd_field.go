@@ -31,9 +31,9 @@ const (
 func cmdField(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	fs := newFlags("field", fieldArgs, fieldSummary, stderr)
 	comp := fs.String("component", "blend", "hyperfine component: \"blend\", an index, or F labels \"2-1\"")
-	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the model line")
-	fwhm := fs.String("fwhm", "", "FWHM of the model line (overrides --doppler)")
-	gamma := fs.String("gamma", "5 s^-1", "decay rate Gamma of the maser levels")
+	doppler := fs.String("doppler", "1 km/s", "1/e half-width of the model line, in km/s or with a unit")
+	fwhm := fs.String("fwhm", "", "FWHM of the model line, in km/s or with a unit (overrides --doppler)")
+	gamma := fs.String("gamma", defaultGamma(), "decay rate Gamma of the maser levels, in s^-1 or with a unit; the default is that of run")
 	tb := fs.String("tb", "", "brightness temperature, value or lo:hi (for rows without one)")
 	domega := fs.String("domega", "", "beaming solid angle dOmega, value or lo:hi (for rows without one)")
 	sat := fs.String("saturation", "", "saturation R/Gamma, value or lo:hi (for rows without one)")
@@ -65,22 +65,11 @@ func cmdField(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 		return report(stderr, err)
 	}
 	base := transfer.Params{Species: sp}
-	vs, vname := *doppler, "doppler"
-	if *fwhm != "" {
-		vs, vname = *fwhm, "fwhm"
+	vd, g, err := lineWidthAndGamma(*doppler, *fwhm, *gamma)
+	if err != nil {
+		return report(stderr, err)
 	}
-	w, err := units.Parse(vs, units.Velocity)
-	if err != nil || !(w > 0) {
-		return report(stderr, usagef("--%s %q: need a velocity > 0 (allowed units: %s)", vname, vs, units.Allowed(units.Velocity)))
-	}
-	if vname == "fwhm" {
-		w /= 2 * math.Sqrt(math.Ln2)
-	}
-	base.Doppler = w
-	g, err := units.Parse(*gamma, units.Rate)
-	if err != nil || !(g > 0) {
-		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
-	}
+	base.Doppler = vd
 	base.GammaUpper, base.GammaLower = g, g
 	c, err := pickComponent(sp, *comp)
 	if err != nil {

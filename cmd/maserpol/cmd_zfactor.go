@@ -69,22 +69,11 @@ func cmdZeemanFactor(ctx context.Context, args []string, stdout, stderr io.Write
 		return report(stderr, err)
 	}
 	base := transfer.Params{Species: sp, Saturation: *satMax, FirstCheckpoint: 1e-3, CheckpointsPerDecade: 2}
-	vs, vname := *doppler, "doppler"
-	if *fwhm != "" {
-		vs, vname = *fwhm, "fwhm"
+	vd, g, err := lineWidthAndGamma(*doppler, *fwhm, *gamma)
+	if err != nil {
+		return report(stderr, err)
 	}
-	w, err := units.ParsePlain(vs, units.Velocity, "km/s")
-	if err != nil || !(w > 0) {
-		return report(stderr, usagef("--%s %q: need a velocity > 0 (allowed units: %s)", vname, vs, units.Allowed(units.Velocity)))
-	}
-	if vname == "fwhm" {
-		w /= 2 * math.Sqrt(math.Ln2)
-	}
-	base.Doppler = w
-	g, err := units.ParsePlain(*gamma, units.Rate, "s^-1")
-	if err != nil || !(g > 0) {
-		return report(stderr, usagef("--gamma %q: need a rate > 0 (allowed units: %s)", *gamma, units.Allowed(units.Rate)))
-	}
+	base.Doppler = vd
 	base.GammaUpper, base.GammaLower = g, g
 	spec := interpret.FactorSpec{Base: base, Component: interpret.Blend}
 	if *b0 != "" {
