@@ -84,6 +84,9 @@ type Model struct {
 	// accumulator: 0..2 the diagonal combinations q = -1, 0, +1, then the
 	// real and imaginary parts of (-1,0), (-1,+1), (0,+1) (coherence.go).
 	etaW [numAcc][4]float64
+	// wc holds the Stokes weights of u1^T J conj(u2) for the cross
+	// combinations (-1,0), (-1,+1), (0,+1) (density matrix only).
+	wc [3][4]complex128
 
 	// The population model: the rate equations, and the density matrix
 	// where the run uses it (cs nil when it never does).
@@ -333,6 +336,7 @@ func (m *Model) setupWeights() {
 	for c := 3; c < 6; c++ {
 		m.etaW[3+2*(c-3)] = etaWeights(c, false, m.p.Theta)
 		m.etaW[4+2*(c-3)] = etaWeights(c, true, m.p.Theta)
+		m.wc[c-3] = stokesWeights(uq(comboQ[c][0], m.p.Theta), uq(comboQ[c][1], m.p.Theta))
 	}
 }
 
@@ -629,7 +633,7 @@ func (m *Model) classError(pos float64, j int, sat float64, err error) error {
 func (m *Model) weightCross(st *state) {
 	n, pad := m.n, m.pad
 	for c := 3; c < 6; c++ {
-		wc := stokesWeights(uq(comboQ[c][0], m.p.Theta), uq(comboQ[c][1], m.p.Theta))
+		wc := &m.wc[c-3]
 		yr, yi := m.yc[2*(c-3)], m.yc[2*(c-3)+1]
 		at := func(x [4]float64) (float64, float64) {
 			var re, im float64
