@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"math/cmplx"
+	"sort"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -88,18 +89,24 @@ type coherent struct {
 	pairs   []linePair2 // line pairs whose G enters the equations or the gain
 	pairOf  map[[2]int]int
 	entries []dmEntry
-	base    []float64 // Gamma + i omega part, dim x dim row-major
+	selfG   []float64 // decay rate of each unknown's equation
+	selfW   []float64 // Bohr frequency of a pair, at its real unknown
 	rhs0    []float64 // pump pattern at the profile centre
-	a       []float64
-	b       []float64
+	a       []float64 // dense class matrix (the strong block on the iterative path)
+	x       []float64 // right-hand side, then solution
 	ipiv    []int
 	g       []complex128 // G per pair for the current class
+
+	// Iterative path (classsolve.go) for class systems with weakly
+	// coupled coherences; nil for small species.
+	it *iterative
 
 	// Deposition slots beyond the line slots.
 	slots []dmSlot
 
-	// Flat-spectrum measure: per kept pair, |omega| (rate units) and the
-	// velocity separation of the two states in Doppler widths.
+	// Flat-spectrum measure: per kept pair in unknown order, |omega|
+	// (rate units, ascending) and the velocity separation of the two
+	// states in Doppler widths.
 	keptW, keptDv []float64
 }
 
@@ -247,34 +254,53 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 	limit := m.p.CoherenceThreshold * rmax
 	c := float64(constant.LightSpeedInVacuum)
 	vd := m.p.Doppler
-	// Unknowns: upper populations, lower populations, then the kept pairs.
+	// Unknowns: upper populations, lower populations, then the kept pairs
+	// in ascending |omega|, so that the strongly coupled pairs of a class
+	// (|omega| below a few times its rate) and the populations are a
+	// leading block (classsolve.go).
 	dim := nU + nL
 	cs.pairU = make([]int, nU*nU)
 	cs.pairL = make([]int, nL*nL)
-	keep := func(pair []int, n int, om []float64, st func(int) float64) {
-		for i := range pair {
-			pair[i] = -1
-		}
+	for i := range cs.pairU {
+		cs.pairU[i] = -1
+	}
+	for i := range cs.pairL {
+		cs.pairL[i] = -1
+	}
+	type cand struct {
+		upper bool
+		a, b  int
+		w, dv float64
+	}
+	var cands []cand
+	keep := func(upper bool, n int, om []float64, st func(int) float64) {
 		for a := 0; a < n; a++ {
 			for b := a + 1; b < n; b++ {
-				w := math.Abs(om[a] - om[b])
-				if w < limit {
-					pair[a*n+b] = dim
-					pair[b*n+a] = dim
-					dim += 2
-					cs.keptW = append(cs.keptW, w)
-					cs.keptDv = append(cs.keptDv, c*math.Abs(st(a)-st(b))/(m.p.Species.Frequency*vd))
+				if w := math.Abs(om[a] - om[b]); w < limit {
+					cands = append(cands, cand{upper, a, b, w, c * math.Abs(st(a)-st(b)) / (m.p.Species.Frequency * vd)})
 				}
 			}
 		}
 	}
-	keep(cs.pairU, nU, omU, func(i int) float64 { return up[i].Energy })
-	keep(cs.pairL, nL, omL, func(i int) float64 { return lo[i].Energy })
+	keep(true, nU, omU, func(i int) float64 { return up[i].Energy })
+	keep(false, nL, omL, func(i int) float64 { return lo[i].Energy })
+	sort.SliceStable(cands, func(i, j int) bool { return cands[i].w < cands[j].w })
+	for _, k := range cands {
+		pair, n := cs.pairU, nU
+		if !k.upper {
+			pair, n = cs.pairL, nL
+		}
+		pair[k.a*n+k.b] = dim
+		pair[k.b*n+k.a] = dim
+		dim += 2
+		cs.keptW = append(cs.keptW, k.w)
+		cs.keptDv = append(cs.keptDv, k.dv)
+	}
 	cs.dim = dim
 	if dim > maxCoherentDim {
 		return nil, &ParamError{Field: "CoherenceThreshold", Value: m.p.CoherenceThreshold,
-			Msg: fmt.Sprintf("species %q keeps %d real unknowns per velocity class with the density matrix (limit %d, %.2g GB per class matrix)",
-				m.p.Species.Name, dim, maxCoherentDim, float64(dim)*float64(dim)*8/1e9),
+			Msg: fmt.Sprintf("species %q keeps %d real unknowns per velocity class with the density matrix (limit %d)",
+				m.p.Species.Name, dim, maxCoherentDim),
 			Allowed: "a smaller threshold, or the populations-only model"}
 	}
 
@@ -324,7 +350,8 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 		cs.entries = append(cs.entries, dmEntry{rowRe: int32(row.re), rowIm: int32(row.im), colRe: int32(col.re), colIm: int32(col.im),
 			pair: int32(p), s: col.s, coef: coef, conj: conj})
 	}
-	cs.base = make([]float64, dim*dim)
+	cs.selfG = make([]float64, dim)
+	cs.selfW = make([]float64, dim)
 	// Upper equations (a <= a').
 	for a := 0; a < nU; a++ {
 		for a2 := a; a2 < nU; a2++ {
@@ -332,7 +359,7 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 			if !ok {
 				continue
 			}
-			setSelf(cs.base, dim, row, gU, omU[a]-omU[a2])
+			cs.setSelf(row, gU, omU[a]-omU[a2])
 			for _, l := range byUp[a] { // (1/2) R^E_{ac} rho_{ca'}, R^E_ac = sum_b G_{ab,cb}
 				b := m.lines[l].lo
 				for _, l2 := range byLo[b] {
@@ -367,7 +394,7 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 			if !ok {
 				continue
 			}
-			setSelf(cs.base, dim, row, gL, omL[b]-omL[b2])
+			cs.setSelf(row, gL, omL[b]-omL[b2])
 			for _, l := range byLo[b] { // (1/2) R^A_{bc} rho_{cb'}, R^A_bc = sum_a G_{ac,ab}
 				a := m.lines[l].up
 				for _, l2 := range byUp[a] {
@@ -442,14 +469,49 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 			}
 		}
 	}
+	cs.entries = mergeEntries(cs.entries)
 	cs.rhs0 = make([]float64, dim)
 	copy(cs.rhs0, pumpU)
 	copy(cs.rhs0[nU:], pumpL)
-	cs.a = make([]float64, dim*dim)
-	cs.b = make([]float64, dim)
-	cs.ipiv = make([]int, dim)
+	cs.x = make([]float64, dim)
 	cs.g = make([]complex128, len(cs.pairs))
+	if dim > iterativeFrom {
+		cs.it = newIterative(cs, m.n)
+	} else {
+		cs.a = make([]float64, dim*dim)
+		cs.ipiv = make([]int, dim)
+	}
 	return cs, nil
+}
+
+// mergeEntries sums the coefficients of entries that put the same G at
+// the same place (the anticommutator and transfer terms of many paths
+// coincide), so that assembly touches each once.
+func mergeEntries(es []dmEntry) []dmEntry {
+	type key struct {
+		rr, ri, cr, ci, pair int32
+		s                    float64
+		conj                 bool
+	}
+	at := make(map[key]int, len(es))
+	out := es[:0]
+	for _, e := range es {
+		k := key{e.rowRe, e.rowIm, e.colRe, e.colIm, e.pair, e.s, e.conj}
+		if i, ok := at[k]; ok {
+			out[i].coef += e.coef
+			continue
+		}
+		at[k] = len(out)
+		out = append(out, e)
+	}
+	// Cancelled sums (exact zeros) carry nothing.
+	kept := out[:0]
+	for _, e := range out {
+		if e.coef != 0 {
+			kept = append(kept, e)
+		}
+	}
+	return kept
 }
 
 // cvar locates a complex unknown rho(x, y) in the real unknowns: the real
@@ -460,26 +522,28 @@ type cvar struct {
 	s      float64
 }
 
-// maxCoherentDim bounds the real unknowns of one class system (memory
-// and time: the LU of the dense class matrix costs dim^3/3 per class).
-const maxCoherentDim = 2000
+// maxCoherentDim bounds the real unknowns of one class system (memory of
+// the stencil and of the per-class starting values; the time is set by
+// the strongly coupled block, see classsolve.go).
+const maxCoherentDim = 6000
 
-// setSelf adds g + i w (the decay and the Bohr frequency of the pair) on
-// the diagonal of the equation row.
-func setSelf(a []float64, dim int, row cvar, g, w float64) {
-	a[row.re*dim+row.re] += g
+// setSelf records g + i w (the decay and the Bohr frequency of the pair)
+// on the diagonal of the equation row.
+func (cs *coherent) setSelf(row cvar, g, w float64) {
+	cs.selfG[row.re] = g
 	if row.im >= 0 {
-		a[row.re*dim+row.im] -= w // Re(i w (x + i y)) = -w y
-		a[row.im*dim+row.re] += w // Im(i w (x + i y)) = w x
-		a[row.im*dim+row.im] += g
+		cs.selfG[row.im] = g
+		cs.selfW[row.re] = w
 	}
 }
 
 // solve computes the class's density matrix for the weighted radiation
-// arrays of m (m.y, m.yc) at class j and writes the line inversions and
-// the coherence values into st.src. It returns errNotPhysical when the
+// arrays of m (m.y, m.yc) at class j, whose largest line rate is rc
+// (units of Gamma), and writes the line inversions and the coherence
+// values into st.src. A small system is solved densely, a large one by
+// the iterative path of classsolve.go. It returns errNotPhysical when the
 // populations come out negative.
-func (cs *coherent) solve(m *Model, st *state, j int) error {
+func (cs *coherent) solve(m *Model, st *state, j int, rc float64) error {
 	pad := m.pad
 	// G per pair: diagonal pairs are the line rates (clamped at zero like
 	// the rate equations), the others the complex weighted Stokes.
@@ -504,25 +568,20 @@ func (cs *coherent) solve(m *Model, st *state, j int) error {
 		}
 		cs.g[p] = complex(pr.amp*re, pr.amp*im)
 	}
-	dim := cs.dim
-	a := cs.a
-	cs.assemble(a)
 	phi := m.phi[j]
+	x := cs.x
 	for i, v := range cs.rhs0 {
-		cs.b[i] = phi * v
+		x[i] = phi * v
 	}
-	if dim <= smallDim {
-		if !solveSmall(a, cs.b, dim) {
-			return errSingular
-		}
+	var err error
+	if cs.it != nil {
+		err = cs.it.solve(cs, j, rc)
 	} else {
-		ag := blas64.General{Rows: dim, Cols: dim, Stride: dim, Data: a}
-		if !lapack64.Getrf(ag, cs.ipiv) {
-			return errSingular
-		}
-		lapack64.Getrs(blas.NoTrans, ag, blas64.General{Rows: dim, Cols: 1, Stride: 1, Data: cs.b}, cs.ipiv)
+		err = cs.solveDense()
 	}
-	x := cs.b
+	if err != nil {
+		return err
+	}
 	// Populations must stay non-negative (to rounding against the class's
 	// scale): a negative one means the flat-spectrum rule has been pushed
 	// past its validity (physics.md section 8, caution 1).
@@ -547,14 +606,46 @@ func (cs *coherent) solve(m *Model, st *state, j int) error {
 	return nil
 }
 
+// solveDense solves the class system by Gaussian elimination (in place for
+// small systems, LAPACK above).
+func (cs *coherent) solveDense() error {
+	n := cs.dim
+	a := cs.a
+	cs.assemble(a, true)
+	if n <= smallDim {
+		if !solveSmall(a, cs.x[:n], n) {
+			return errSingular
+		}
+		return nil
+	}
+	ag := blas64.General{Rows: n, Cols: n, Stride: n, Data: a}
+	if !lapack64.Getrf(ag, cs.ipiv[:n]) {
+		return errSingular
+	}
+	lapack64.Getrs(blas.NoTrans, ag, blas64.General{Rows: n, Cols: 1, Stride: 1, Data: cs.x[:n]}, cs.ipiv[:n])
+	return nil
+}
+
 var errSingular = errors.New("class matrix is singular")
 
 // assemble writes the class matrix for the current G values into a
-// (dim x dim, row-major): the decay and Bohr frequencies, then every
-// stencil entry in real form.
-func (cs *coherent) assemble(a []float64) {
-	dim := cs.dim
-	copy(a, cs.base)
+// (dim x dim, row-major): the decay and Bohr frequencies, then, with
+// stim, every stencil entry in real form.
+func (cs *coherent) assemble(a []float64, stim bool) {
+	n := cs.dim
+	for i := range a[:n*n] {
+		a[i] = 0
+	}
+	for i := 0; i < n; i++ {
+		a[i*n+i] = cs.selfG[i]
+		if w := cs.selfW[i]; w != 0 {
+			a[i*n+i+1] -= w // Re(i w (x + i y)) = -w y
+			a[(i+1)*n+i] += w
+		}
+	}
+	if !stim {
+		return
+	}
 	for i := range cs.entries {
 		e := &cs.entries[i]
 		g := cs.g[e.pair]
@@ -563,14 +654,14 @@ func (cs *coherent) assemble(a []float64) {
 		}
 		gr, gi := e.coef*real(g), e.coef*imag(g)
 		rr, ri, cr, ci := int(e.rowRe), int(e.rowIm), int(e.colRe), int(e.colIm)
-		a[rr*dim+cr] += gr
+		a[rr*n+cr] += gr
 		if ci >= 0 {
-			a[rr*dim+ci] -= e.s * gi
+			a[rr*n+ci] -= e.s * gi
 		}
 		if ri >= 0 {
-			a[ri*dim+cr] += gi
+			a[ri*n+cr] += gi
 			if ci >= 0 {
-				a[ri*dim+ci] += e.s * gr
+				a[ri*n+ci] += e.s * gr
 			}
 		}
 	}

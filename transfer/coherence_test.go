@@ -194,25 +194,35 @@ func classSystem(t *testing.T, m *Model, j int) (a, stim *mat.Dense, x []float64
 	cs := m.cs
 	st := m.cur
 	m.populate(st, 0) // fills m.y, m.yc and m.r for the last class
-	// Recompute the rates of class j.
+	rc := classRates(m, j)
+	if err := cs.solve(m, st, j, rc); err != nil {
+		t.Fatal(err)
+	}
+	x = append([]float64(nil), cs.x...)
+	// Rebuild the matrix: solve leaves the LU in cs.a; assemble again.
+	dim := cs.dim
+	full := make([]float64, dim*dim)
+	cs.assemble(full, true)
+	a = mat.NewDense(dim, dim, full)
+	base := make([]float64, dim*dim)
+	cs.assemble(base, false)
+	stim = mat.NewDense(dim, dim, nil)
+	stim.Sub(a, mat.NewDense(dim, dim, base))
+	return a, stim, x
+}
+
+// classRates sets m.r to the line rates of class j (populate leaves those
+// of the last class) and returns the largest.
+func classRates(m *Model, j int) float64 {
+	rc := 0.0
 	for i := range m.lines {
 		l := &m.lines[i]
 		y := m.y[l.q+1]
 		k := j + l.i0 + m.pad
 		m.r[i] = math.Max(0, l.s*(l.w[0]*y[k-1]+l.w[1]*y[k]+l.w[2]*y[k+1]+l.w[3]*y[k+2]))
+		rc = math.Max(rc, m.r[i])
 	}
-	if err := cs.solve(m, st, j); err != nil {
-		t.Fatal(err)
-	}
-	x = append([]float64(nil), cs.b...)
-	// Rebuild the matrix: solve leaves the LU in cs.a; assemble again.
-	dim := cs.dim
-	full := make([]float64, dim*dim)
-	cs.assemble(full)
-	a = mat.NewDense(dim, dim, full)
-	stim = mat.NewDense(dim, dim, nil)
-	stim.Sub(a, mat.NewDense(dim, dim, append([]float64(nil), cs.base...)))
-	return a, stim, x
+	return rc
 }
 
 // densityOf returns the Hermitian density matrix of one level from the
@@ -308,12 +318,31 @@ func TestCoherentEnergy(t *testing.T) {
 		name string
 		tr   *levels.Transition
 		p    Params
+		beam bool // a prescribed beam instead of a run
 	}{
-		{"J=1-0 R ~ gOmega", j10Split(30, 10), Params{Channels: 128, Theta: deg(60), Doppler: 1000, Saturation: 300, Population: Density}},
+		{"J=1-0 R ~ gOmega", j10Split(30, 10), Params{Channels: 128, Theta: deg(60), Doppler: 1000, Saturation: 300, Population: Density}, false},
 		{"J=2-1 polarized seed", j21(t, 30, 10), Params{Theta: deg(35), Doppler: 1000, Saturation: 100, Population: Density,
-			Seed: Seed{Tb: 50, LinearFraction: 0.5, CircularFraction: 0.2, Angle: 0.3}}},
+			Seed: Seed{Tb: 50, LinearFraction: 0.5, CircularFraction: 0.2, Angle: 0.3}}, false},
+		// Iterative class solve (886 unknowns), on a polarized beam at
+		// R/Gamma = 1e3 instead of a run.
+		{"h2o-22 0.3 G iterative", h2oAt(t, 0.3), Params{Theta: deg(55), Temperature: 1000, Saturation: 1e3, Channels: 48, Population: Density}, true},
 	} {
-		m, _ := runModel(t, tc.tr, tc.p)
+		var m *Model
+		if tc.beam {
+			var err error
+			if m, err = NewModel(tc.tr, tc.p); err != nil {
+				t.Fatal(err)
+			}
+			if m.cs.it == nil {
+				t.Fatalf("%s: %d unknowns, iterative path not built", tc.name, m.cs.dim)
+			}
+			beamAt(t, m, tc.p.Saturation, 0.1, 0.2, 0.03)
+			if err := m.populate(m.cur, 0); err != nil {
+				t.Fatal(err)
+			}
+		} else {
+			m, _ = runModel(t, tc.tr, tc.p)
+		}
 		S := &m.cur.st
 		beam := 0.0
 		for k := 0; k < m.n; k++ {
@@ -334,6 +363,19 @@ func TestCoherentEnergy(t *testing.T) {
 			t.Errorf("%s: beam gains %.12g, molecules give %.12g", tc.name, beam, mol)
 		}
 	}
+}
+
+func h2oAt(t testing.TB, field float64) *levels.Transition {
+	t.Helper()
+	sp, err := species.Preset("h2o-22")
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr, err := levels.NewTransition(sp, field)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return tr
 }
 
 // TestCoherenceThreshold: raising the coherence threshold kappa from the

@@ -120,7 +120,8 @@
 //     neglected;
 //   - Auto (default): Rates while R/(g Omega) < AutoCoherenceFrom along the
 //     column, Density from there on; Rates throughout, with a warning, when
-//     the class system of the species exceeds autoMaxDim real unknowns.
+//     the class system of the species exceeds autoMaxDim real unknowns or
+//     its strong block at the target saturation exceeds autoMaxStrong.
 //
 // Once the density matrix is in use, a velocity class whose largest rate
 // stays below classCoherentFrom x g Omega (AutoCoherenceFrom for Auto,
@@ -130,9 +131,16 @@
 // The coherence set keeps a pair of eigenstates of one level when their
 // splitting in rate units is below CoherenceThreshold x Saturation. Each
 // class system (populations, then Re and Im of every kept pair, real form)
-// is assembled from a stencil precomputed at NewModel and solved by LU
-// (gonum lapack64). A class whose populations come out negative stops the
-// run with a StepError naming the position, class and saturation.
+// is assembled from a stencil precomputed at NewModel, with the kept pairs
+// ordered by splitting. Systems of up to iterativeFrom unknowns are solved
+// by dense LU; larger ones (hyperfine-rich species) by GMRES preconditioned
+// with the strong block (the populations and the pairs split by less than
+// the class's rate, factored densely) and a block Gauss-Seidel sweep over
+// the weakly coupled pairs, warm-started from the class's previous
+// solution (classsolve.go): the cost per class is set by the strong block
+// and the stencil, not by the cube of the kept set. A class whose
+// populations come out negative stops the run with a StepError naming the
+// position, class and saturation.
 //
 // # Transfer
 //

@@ -37,7 +37,8 @@ func checkSaturated(t *testing.T, name string, m *Model, tj *Trajectory, every i
 }
 
 // TestHyperfinePresetsSaturate: the h2o-22 preset runs to R/Gamma = 1e3
-// without error, with finite output, and conserves energy. The
+// with the rate equations without error, with finite output, and conserves
+// energy (the density matrix of the same preset: TestCoherentEnergy). The
 // synthetic-j6-5 preset gets the same checks in TestHyperfineVSaturated.
 func TestHyperfinePresetsSaturate(t *testing.T) {
 	sp, err := species.Preset("h2o-22")
@@ -48,7 +49,7 @@ func TestHyperfinePresetsSaturate(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	m, err := NewModel(tr, Params{Theta: deg(60), Temperature: 800, Saturation: 1e3})
+	m, err := NewModel(tr, Params{Theta: deg(60), Temperature: 800, Saturation: 1e3, Population: Rates})
 	if err != nil {
 		t.Fatal(err)
 	}

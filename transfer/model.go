@@ -128,10 +128,24 @@ const numAcc = 9
 // test checks R/g Omega <= 0.01 to 1e-3).
 const AutoCoherenceFrom = 1e-3
 
-// autoMaxDim is the largest class system (real unknowns) that Auto takes
-// on: above it the direct class solve costs more than a run should, and
-// Auto keeps the rate equations with a warning (Density runs it anyway).
-const autoMaxDim = 300
+// autoMaxDim and autoMaxStrong bound the class systems that Auto takes
+// on: the real unknowns (the cost of the sparse products of the iterative
+// class solve, classsolve.go) and the strong block at the target
+// saturation (the populations and the pairs with |omega| < R, factored
+// densely in every class at the peak). Above either, Auto keeps the rate
+// equations with a warning; Density runs the system anyway. Measured
+// (2 shared cores): h2o-22 at 0.3 G to R/Gamma = 1e3, 886 unknowns with
+// a strong block of 152, about 0.25 ms per 1000 unknowns per class solve.
+const (
+	autoMaxDim    = 1500
+	autoMaxStrong = 500
+)
+
+// strongAt returns the size of the strong block of the class system at a
+// class rate r (units of Gamma).
+func (cs *coherent) strongAt(r float64) int {
+	return cs.nU + cs.nL + 2*searchBelow(cs.keptW, strongFactor*r)
+}
 
 // NewModel builds a Model for the already-solved transition tr. p.Species
 // and p.Field may be left zero; they are taken from tr. Defaults are
@@ -373,10 +387,14 @@ func (m *Model) setupPopulations() error {
 		return err
 	case err != nil:
 		m.warnf("the density matrix is not available (%v): the populations-only model is used throughout", err)
-	case p.Population == Auto && cs.dim > autoMaxDim:
-		m.warnf("the density matrix of %s has %d real unknowns per velocity class (automatic model limit %d): the populations-only model is used throughout; set the population model to \"density\" to run it anyway",
-			p.Species.Name, cs.dim, autoMaxDim)
+	case p.Population == Auto && (cs.dim > autoMaxDim || cs.strongAt(p.Saturation) > autoMaxStrong):
+		m.warnf("the density matrix of %s has %d real unknowns per velocity class, %d of them strongly coupled at R/Gamma = %.3g (automatic model limits %d and %d): the populations-only model is used throughout; set the population model to \"density\" to run it anyway",
+			p.Species.Name, cs.dim, cs.strongAt(p.Saturation), p.Saturation, autoMaxDim, autoMaxStrong)
 	default:
+		if ns := cs.strongAt(p.Saturation); ns > autoMaxStrong {
+			m.warnf("the density matrix of %s couples %d of its %d real unknowns per velocity class strongly at R/Gamma = %.3g: each such class solve factors a dense block of that size, so the run may take hours",
+				p.Species.Name, ns, cs.dim, p.Saturation)
+		}
 		m.cs = cs
 	}
 	return nil
@@ -592,7 +610,7 @@ func (m *Model) populate(st *state, pos float64) error {
 			}
 		}
 		if coh && rmax >= rFloor {
-			if err := m.cs.solve(m, st, j); err != nil {
+			if err := m.cs.solve(m, st, j, rmax); err != nil {
 				return m.classError(pos, j, st.sat, err)
 			}
 			continue

@@ -1,0 +1,487 @@
+package transfer
+
+import (
+	"errors"
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/lapack64"
+)
+
+// This file solves the large class systems of the density matrix
+// (coherence.go) whose coherences are mostly weakly coupled: a
+// hyperfine-rich species keeps many pairs split by several times the
+// stimulated rate R, whose coherences are ~ R/|omega| and respond to the
+// populations almost at once, and a few near-degenerate pairs that are
+// strongly coupled to the populations. With the unknowns ordered by
+// |omega| (coherence.go), the class matrix is
+//
+//	A = [A_SS  A_SW]     S: the populations and the pairs with |omega| < c R
+//	    [A_WS  A_WW]     W: the pairs with c R <= |omega| < kappa R
+//
+// and the block Gauss-Seidel matrix P = [A_SS 0; A_WS L_WW] (L_WW the
+// block lower triangle of A_WW in 2x2 pair blocks) is an approximate
+// inverse whose error, A_WW's off-diagonal coupling against its Bohr
+// frequencies, is of order R/|omega| <= 1/c on W. GMRES (Saad & Schultz
+// 1986, SIAM J. Sci. Stat. Comput. 7, 856; the restarted form with
+// Givens rotations, Saad 2003, Iterative Methods for Sparse Linear
+// Systems, sect. 6.5) with P as right preconditioner converges in a few
+// tens of iterations from the class's previous solution, so a class costs
+// one dense LU of the strong block (|S|^3/3 instead of dim^3/3) plus
+// sparse products. gonum has no iterative linear solver in its released
+// modules, so GMRES is written here.
+//
+// The tolerance is set by the inversion: in saturation the upper and
+// lower populations agree to ~ Gamma/R, so the residual is driven to
+// classTol of the right-hand side, leaving an error in the inversion
+// ~ classTol x R/Gamma relative, far below the step control's tolerance.
+
+// iterativeFrom is the class-system size above which the iterative path is
+// built (below it a dense LU is cheaper than the bookkeeping; measured on
+// J=2-1 and h2o-22, BenchmarkClassSolve).
+const iterativeFrom = 64
+
+// strongFactor is c of the strong block: pairs with |omega| < c R join the
+// populations in the dense LU.
+const strongFactor = 1.0
+
+// classTol is GMRES's relative residual target; gmresRestart its Krylov
+// dimension and gmresMaxIter the iterations after which the class falls
+// back to a dense LU.
+const (
+	classTol     = 1e-13
+	gmresRestart = 40
+	gmresMaxIter = 400
+)
+
+// iterative holds the sparse class matrix and the GMRES workspaces.
+type iterative struct {
+	dim    int
+	rowPtr []int32
+	col    []int32
+	val    []float64
+	base   []float64  // decay and Bohr frequencies on the pattern
+	epos   [][4]int32 // per stencil entry: value positions of (re,re), (re,im), (im,re), (im,im)
+
+	nS   int // size of the current strong block
+	lu   []float64
+	ipiv []int
+	dinv [][4]float64 // inverse 2x2 diagonal block per W pair (by pair index)
+
+	v      []float64 // Krylov basis, (gmresRestart+1) x dim
+	h      []float64 // Hessenberg matrix, (gmresRestart+1) x gmresRestart
+	cs, sn []float64 // Givens rotations
+	gv     []float64 // rotated residual
+	y, z   []float64
+	r      []float64
+
+	prev  []float64 // previous solution per class (warm start), classes x dim
+	prevN []int
+
+	// Counters for benchmarks and tests.
+	solves, iters, fallbacks int
+}
+
+// newIterative builds the sparse pattern of cs's class matrix and the
+// workspaces for nc velocity classes.
+func newIterative(cs *coherent, nc int) *iterative {
+	dim := cs.dim
+	it := &iterative{dim: dim}
+	// Pattern: the diagonal (2x2 blocks for the pairs), then every entry.
+	rows := make([][]int32, dim)
+	for i := 0; i < dim; i++ {
+		rows[i] = append(rows[i], int32(i))
+	}
+	np := cs.nU + cs.nL
+	for k := np; k < dim; k += 2 {
+		rows[k] = append(rows[k], int32(k+1))
+		rows[k+1] = append(rows[k+1], int32(k))
+	}
+	for i := range cs.entries {
+		e := &cs.entries[i]
+		rr, ri, cr, ci := e.rowRe, e.rowIm, e.colRe, e.colIm
+		rows[rr] = append(rows[rr], cr)
+		if ci >= 0 {
+			rows[rr] = append(rows[rr], ci)
+		}
+		if ri >= 0 {
+			rows[ri] = append(rows[ri], cr)
+			if ci >= 0 {
+				rows[ri] = append(rows[ri], ci)
+			}
+		}
+	}
+	it.rowPtr = make([]int32, dim+1)
+	for i, r := range rows {
+		sortInt32(r)
+		u := r[:0]
+		for k, c := range r {
+			if k == 0 || c != r[k-1] {
+				u = append(u, c)
+			}
+		}
+		rows[i] = u
+		it.rowPtr[i+1] = it.rowPtr[i] + int32(len(u))
+	}
+	it.col = make([]int32, it.rowPtr[dim])
+	for i, r := range rows {
+		copy(it.col[it.rowPtr[i]:], r)
+	}
+	pos := func(r, c int32) int32 {
+		lo, hi := it.rowPtr[r], it.rowPtr[r+1]
+		for lo < hi {
+			mid := (lo + hi) / 2
+			if it.col[mid] < c {
+				lo = mid + 1
+			} else {
+				hi = mid
+			}
+		}
+		return lo
+	}
+	it.val = make([]float64, len(it.col))
+	it.base = make([]float64, len(it.col))
+	for i := 0; i < dim; i++ {
+		it.base[pos(int32(i), int32(i))] = cs.selfG[i]
+		if w := cs.selfW[i]; w != 0 {
+			it.base[pos(int32(i), int32(i+1))] -= w
+			it.base[pos(int32(i+1), int32(i))] += w
+		}
+	}
+	it.epos = make([][4]int32, len(cs.entries))
+	for i := range cs.entries {
+		e := &cs.entries[i]
+		p := [4]int32{pos(e.rowRe, e.colRe), -1, -1, -1}
+		if e.colIm >= 0 {
+			p[1] = pos(e.rowRe, e.colIm)
+		}
+		if e.rowIm >= 0 {
+			p[2] = pos(e.rowIm, e.colRe)
+			if e.colIm >= 0 {
+				p[3] = pos(e.rowIm, e.colIm)
+			}
+		}
+		it.epos[i] = p
+	}
+	it.ipiv = make([]int, dim)
+	it.dinv = make([][4]float64, (dim-np)/2)
+	m := gmresRestart
+	it.v = make([]float64, (m+1)*dim)
+	it.h = make([]float64, (m+1)*m)
+	it.cs = make([]float64, m)
+	it.sn = make([]float64, m)
+	it.gv = make([]float64, m+1)
+	it.y = make([]float64, m)
+	it.z = make([]float64, dim)
+	it.r = make([]float64, dim)
+	it.prev = make([]float64, nc*dim)
+	it.prevN = make([]int, nc)
+	return it
+}
+
+// sortInt32 sorts a short slice in place (insertion sort: rows hold tens
+// of entries).
+func sortInt32(a []int32) {
+	for i := 1; i < len(a); i++ {
+		v := a[i]
+		k := i - 1
+		for k >= 0 && a[k] > v {
+			a[k+1] = a[k]
+			k--
+		}
+		a[k+1] = v
+	}
+}
+
+// assemble writes the matrix values for cs's current G.
+func (it *iterative) assemble(cs *coherent) {
+	copy(it.val, it.base)
+	for i := range cs.entries {
+		e := &cs.entries[i]
+		g := cs.g[e.pair]
+		if e.conj {
+			g = complex(real(g), -imag(g))
+		}
+		gr, gi := e.coef*real(g), e.coef*imag(g)
+		p := &it.epos[i]
+		it.val[p[0]] += gr
+		if p[1] >= 0 {
+			it.val[p[1]] -= e.s * gi
+		}
+		if p[2] >= 0 {
+			it.val[p[2]] += gi
+			if p[3] >= 0 {
+				it.val[p[3]] += e.s * gr
+			}
+		}
+	}
+}
+
+// mul sets dst = A x on the leading n unknowns.
+func (it *iterative) mul(dst, x []float64, n int) {
+	rowPtr, col, val := it.rowPtr[:n+1], it.col, it.val
+	for i := 0; i < n; i++ {
+		lo, hi := rowPtr[i], rowPtr[i+1]
+		cs, vs := col[lo:hi], val[lo:hi]
+		vs = vs[:len(cs)]
+		s := 0.0
+		for p, c := range cs {
+			s += vs[p] * x[c]
+		}
+		dst[i] = s
+	}
+}
+
+// factor prepares the preconditioner for the leading n unknowns with the
+// strong block of nS unknowns: the dense LU of A_SS and the inverse 2x2
+// diagonal blocks of the W pairs.
+func (it *iterative) factor(nS, n, np int) bool {
+	it.nS = nS
+	lu := it.lu[:nS*nS]
+	for i := range lu {
+		lu[i] = 0
+	}
+	for i := 0; i < nS; i++ {
+		for p := it.rowPtr[i]; p < it.rowPtr[i+1]; p++ {
+			c := int(it.col[p])
+			if c >= nS {
+				break
+			}
+			lu[i*nS+c] = it.val[p]
+		}
+	}
+	if !lapack64.Getrf(blas64.General{Rows: nS, Cols: nS, Stride: nS, Data: lu}, it.ipiv[:nS]) {
+		return false
+	}
+	for k := nS; k < n; k += 2 {
+		var b [4]float64 // [[a, b], [c, d]]
+		for r := 0; r < 2; r++ {
+			for p := it.rowPtr[k+r]; p < it.rowPtr[k+r+1]; p++ {
+				c := int(it.col[p])
+				if c == k || c == k+1 {
+					b[2*r+c-k] = it.val[p]
+				}
+			}
+		}
+		det := b[0]*b[3] - b[1]*b[2]
+		if det == 0 || math.IsNaN(det) {
+			return false
+		}
+		it.dinv[(k-np)/2] = [4]float64{b[3] / det, -b[1] / det, -b[2] / det, b[0] / det}
+	}
+	return true
+}
+
+// precond sets dst = P^-1 src on the leading n unknowns (see the file
+// comment): the strong block by its LU, then the W pairs in order by
+// block forward substitution.
+func (it *iterative) precond(dst, src []float64, n, np int) {
+	nS := it.nS
+	copy(dst[:nS], src[:nS])
+	lapack64.Getrs(blas.NoTrans, blas64.General{Rows: nS, Cols: nS, Stride: nS, Data: it.lu[:nS*nS]},
+		blas64.General{Rows: nS, Cols: 1, Stride: 1, Data: dst[:nS]}, it.ipiv[:nS])
+	for k := nS; k < n; k += 2 {
+		t0, t1 := src[k], src[k+1]
+		for p := it.rowPtr[k]; p < it.rowPtr[k+1]; p++ {
+			c := int(it.col[p])
+			if c >= k {
+				break
+			}
+			t0 -= it.val[p] * dst[c]
+		}
+		for p := it.rowPtr[k+1]; p < it.rowPtr[k+2]; p++ {
+			c := int(it.col[p])
+			if c >= k {
+				break
+			}
+			t1 -= it.val[p] * dst[c]
+		}
+		d := &it.dinv[(k-np)/2]
+		dst[k] = d[0]*t0 + d[1]*t1
+		dst[k+1] = d[2]*t0 + d[3]*t1
+	}
+}
+
+var errNoConvergence = errors.New("iterative class solve did not converge")
+
+// solve solves class j (right-hand side in cs.x, solution written there)
+// for the class's largest rate rc.
+func (it *iterative) solve(cs *coherent, j int, rc float64) error {
+	n := cs.dim
+	np := cs.nU + cs.nL
+	nS := np + 2*searchBelow(cs.keptW, strongFactor*rc)
+	it.assemble(cs)
+	it.solves++
+	if nS == n {
+		return it.dense(cs, n)
+	}
+	if need := nS * nS; len(it.lu) < need {
+		it.lu = make([]float64, need, need+need/2) // grows a few times per model
+	}
+	if !it.factor(nS, n, np) {
+		return it.dense(cs, n)
+	}
+	b := cs.x[:n]
+	x := it.z[:n] // the iterate; b stays in cs.x until the end
+	prev := it.prev[j*it.dim : j*it.dim+it.dim]
+	k := min(it.prevN[j], n)
+	copy(x[:k], prev[:k])
+	for i := k; i < n; i++ {
+		x[i] = 0
+	}
+	if !it.gmres(b, x, n, np) {
+		it.fallbacks++
+		return it.dense(cs, n)
+	}
+	copy(b, x)
+	copy(prev[:n], x)
+	it.prevN[j] = n
+	return nil
+}
+
+// dense solves the class by a dense LU (the whole system is strongly
+// coupled, or GMRES failed).
+func (it *iterative) dense(cs *coherent, n int) error {
+	if need := n * n; len(it.lu) < need {
+		it.lu = make([]float64, need)
+	}
+	a := it.lu[:n*n]
+	cs.assemble(a, true)
+	ag := blas64.General{Rows: n, Cols: n, Stride: n, Data: a}
+	if !lapack64.Getrf(ag, it.ipiv[:n]) {
+		return errSingular
+	}
+	lapack64.Getrs(blas.NoTrans, ag, blas64.General{Rows: n, Cols: 1, Stride: 1, Data: cs.x[:n]}, it.ipiv[:n])
+	return nil
+}
+
+// gmres solves A x = b on the leading n unknowns by restarted GMRES with
+// right preconditioning, from the starting x; it reports convergence.
+func (it *iterative) gmres(b, x []float64, n, np int) bool {
+	m := gmresRestart
+	bn := norm(b[:n])
+	if bn == 0 {
+		for i := range x[:n] {
+			x[i] = 0
+		}
+		return true
+	}
+	tol := classTol * bn
+	r := it.r[:n]
+	total := 0
+	for total < gmresMaxIter {
+		it.mul(r, x, n)
+		for i := range r {
+			r[i] = b[i] - r[i]
+		}
+		beta := norm(r)
+		if beta <= tol {
+			return true
+		}
+		v0 := it.v[:n]
+		for i := range r {
+			v0[i] = r[i] / beta
+		}
+		for i := range it.gv {
+			it.gv[i] = 0
+		}
+		it.gv[0] = beta
+		k := 0
+		for ; k < m; k++ {
+			total++
+			vk := it.v[k*n : (k+1)*n]
+			w := it.v[(k+1)*n : (k+2)*n]
+			it.precond(r, vk, n, np) // r as scratch: P^-1 v_k
+			it.mul(w, r, n)
+			// Modified Gram-Schmidt.
+			for i := 0; i <= k; i++ {
+				vi := it.v[i*n : (i+1)*n]
+				hik := dot(w, vi)
+				it.h[i*m+k] = hik
+				axpy(-hik, vi, w)
+			}
+			hk1 := norm(w)
+			it.h[(k+1)*m+k] = hk1
+			if hk1 > 0 {
+				inv := 1 / hk1
+				for i := range w {
+					w[i] *= inv
+				}
+			}
+			// Apply the previous rotations, then a new one for row k+1.
+			for i := 0; i < k; i++ {
+				a, c := it.h[i*m+k], it.h[(i+1)*m+k]
+				it.h[i*m+k] = it.cs[i]*a + it.sn[i]*c
+				it.h[(i+1)*m+k] = -it.sn[i]*a + it.cs[i]*c
+			}
+			a, c := it.h[k*m+k], it.h[(k+1)*m+k]
+			d := math.Hypot(a, c)
+			if d == 0 {
+				return false
+			}
+			it.cs[k], it.sn[k] = a/d, c/d
+			it.h[k*m+k] = d
+			it.h[(k+1)*m+k] = 0
+			it.gv[k+1] = -it.sn[k] * it.gv[k]
+			it.gv[k] = it.cs[k] * it.gv[k]
+			if math.Abs(it.gv[k+1]) <= tol || hk1 == 0 || total >= gmresMaxIter {
+				k++
+				break
+			}
+		}
+		it.iters += k
+		// y = H^-1 g (upper triangular k x k), x += P^-1 (V y).
+		y := it.y[:k]
+		for i := k - 1; i >= 0; i-- {
+			s := it.gv[i]
+			for l := i + 1; l < k; l++ {
+				s -= it.h[i*m+l] * y[l]
+			}
+			y[i] = s / it.h[i*m+i]
+		}
+		u := it.r[:n]
+		for i := range u {
+			u[i] = 0
+		}
+		for i := 0; i < k; i++ {
+			axpy(y[i], it.v[i*n:(i+1)*n], u)
+		}
+		w := it.v[k*n : (k+1)*n] // not in the sum: free
+		it.precond(w, u[:n], n, np)
+		axpy(1, w, x[:n])
+		if math.Abs(it.gv[k]) <= tol {
+			return true // GMRES's residual estimate (exact in exact arithmetic)
+		}
+	}
+	// Final check of the true residual.
+	it.mul(r, x, n)
+	for i := range r {
+		r[i] = b[i] - r[i]
+	}
+	return norm(r) <= tol
+}
+
+// searchBelow returns the number of leading ascending values below x.
+func searchBelow(a []float64, x float64) int {
+	lo, hi := 0, len(a)
+	for lo < hi {
+		mid := (lo + hi) / 2
+		if a[mid] < x {
+			lo = mid + 1
+		} else {
+			hi = mid
+		}
+	}
+	return lo
+}
+
+func norm(a []float64) float64 { return blas64.Nrm2(blas64.Vector{N: len(a), Inc: 1, Data: a}) }
+
+func dot(a, b []float64) float64 {
+	return blas64.Dot(blas64.Vector{N: len(a), Inc: 1, Data: a}, blas64.Vector{N: len(b), Inc: 1, Data: b})
+}
+
+func axpy(alpha float64, x, y []float64) {
+	blas64.Axpy(alpha, blas64.Vector{N: len(x), Inc: 1, Data: x}, blas64.Vector{N: len(y), Inc: 1, Data: y})
+}
