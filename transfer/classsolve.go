@@ -1,8 +1,8 @@
 package transfer
 
 import (
-	"errors"
 	"math"
+	"sort"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -61,13 +61,22 @@ type iterative struct {
 	rowPtr []int32
 	col    []int32
 	val    []float64
-	base   []float64  // decay and Bohr frequencies on the pattern
-	epos   [][4]int32 // per stencil entry: value positions of (re,re), (re,im), (im,re), (im,im)
+	base   []float64 // decay and Bohr frequencies on the pattern
+	// The stimulated part of each value, sum_t coef_t g[idx_t] over the
+	// terms tPtr[k]..tPtr[k+1] of value k, with g = (Re G_0, Im G_0,
+	// Re G_1, ...): the stencil entries in real form, merged and ordered by
+	// the value they feed, so assembly writes each value once.
+	tPtr  []int32
+	tIdx  []int32
+	tCoef []float64
+	gf    []float64
 
-	nS   int // size of the current strong block
-	lu   []float64
-	ipiv []int
-	dinv [][4]float64 // inverse 2x2 diagonal block per W pair (by pair index)
+	strong float64 // c of the strong block (strongFactor; tests vary it)
+	nS     int     // size of the factored strong block
+	diag   []int32 // value positions of each weak pair's 2x2 diagonal block
+	lu     []float64
+	ipiv   []int
+	dinv   [][4]float64 // inverse 2x2 diagonal block per W pair (by pair index)
 
 	v      []float64 // Krylov basis, (gmresRestart+1) x dim
 	h      []float64 // Hessenberg matrix, (gmresRestart+1) x gmresRestart
@@ -87,7 +96,7 @@ type iterative struct {
 // workspaces for nc velocity classes.
 func newIterative(cs *coherent, nc int) *iterative {
 	dim := cs.dim
-	it := &iterative{dim: dim}
+	it := &iterative{dim: dim, strong: strongFactor}
 	// Pattern: the diagonal (2x2 blocks for the pairs), then every entry.
 	rows := make([][]int32, dim)
 	for i := 0; i < dim; i++ {
@@ -149,23 +158,62 @@ func newIterative(cs *coherent, nc int) *iterative {
 			it.base[pos(int32(i+1), int32(i))] += w
 		}
 	}
-	it.epos = make([][4]int32, len(cs.entries))
+	type term struct {
+		pos, idx int32
+		coef     float64
+	}
+	terms := make([]term, 0, 4*len(cs.entries))
 	for i := range cs.entries {
 		e := &cs.entries[i]
-		p := [4]int32{pos(e.rowRe, e.colRe), -1, -1, -1}
+		re, im := 2*e.pair, 2*e.pair+1
+		sc := 1.0 // conj(G) flips the imaginary part
+		if e.conj {
+			sc = -1
+		}
+		terms = append(terms, term{pos(e.rowRe, e.colRe), re, e.coef})
 		if e.colIm >= 0 {
-			p[1] = pos(e.rowRe, e.colIm)
+			terms = append(terms, term{pos(e.rowRe, e.colIm), im, -e.s * sc * e.coef})
 		}
 		if e.rowIm >= 0 {
-			p[2] = pos(e.rowIm, e.colRe)
+			terms = append(terms, term{pos(e.rowIm, e.colRe), im, sc * e.coef})
 			if e.colIm >= 0 {
-				p[3] = pos(e.rowIm, e.colIm)
+				terms = append(terms, term{pos(e.rowIm, e.colIm), re, e.s * e.coef})
 			}
 		}
-		it.epos[i] = p
 	}
+	sort.Slice(terms, func(i, j int) bool {
+		if terms[i].pos != terms[j].pos {
+			return terms[i].pos < terms[j].pos
+		}
+		return terms[i].idx < terms[j].idx
+	})
+	merged := terms[:0]
+	for _, t := range terms {
+		if k := len(merged) - 1; k >= 0 && merged[k].pos == t.pos && merged[k].idx == t.idx {
+			merged[k].coef += t.coef
+			continue
+		}
+		merged = append(merged, t)
+	}
+	it.tPtr = make([]int32, len(it.col)+1)
+	for _, t := range merged {
+		if t.coef != 0 {
+			it.tIdx = append(it.tIdx, t.idx)
+			it.tCoef = append(it.tCoef, t.coef)
+			it.tPtr[t.pos+1]++
+		}
+	}
+	for k := range it.col {
+		it.tPtr[k+1] += it.tPtr[k]
+	}
+	it.gf = make([]float64, 2*len(cs.pairs))
 	it.ipiv = make([]int, dim)
 	it.dinv = make([][4]float64, (dim-np)/2)
+	it.diag = make([]int32, 0, 2*(dim-np))
+	for k := np; k < dim; k += 2 {
+		r, c := int32(k), int32(k+1)
+		it.diag = append(it.diag, pos(r, r), pos(r, c), pos(c, r), pos(c, c))
+	}
 	m := gmresRestart
 	it.v = make([]float64, (m+1)*dim)
 	it.h = make([]float64, (m+1)*m)
@@ -196,25 +244,17 @@ func sortInt32(a []int32) {
 
 // assemble writes the matrix values for cs's current G.
 func (it *iterative) assemble(cs *coherent) {
-	copy(it.val, it.base)
-	for i := range cs.entries {
-		e := &cs.entries[i]
-		g := cs.g[e.pair]
-		if e.conj {
-			g = complex(real(g), -imag(g))
+	gf := it.gf
+	for p, g := range cs.g {
+		gf[2*p], gf[2*p+1] = real(g), imag(g)
+	}
+	idx, coef := it.tIdx, it.tCoef[:len(it.tIdx)]
+	for k := range it.val {
+		v := it.base[k]
+		for t := it.tPtr[k]; t < it.tPtr[k+1]; t++ {
+			v += coef[t] * gf[idx[t]]
 		}
-		gr, gi := e.coef*real(g), e.coef*imag(g)
-		p := &it.epos[i]
-		it.val[p[0]] += gr
-		if p[1] >= 0 {
-			it.val[p[1]] -= e.s * gi
-		}
-		if p[2] >= 0 {
-			it.val[p[2]] += gi
-			if p[3] >= 0 {
-				it.val[p[3]] += e.s * gr
-			}
-		}
+		it.val[k] = v
 	}
 }
 
@@ -233,10 +273,11 @@ func (it *iterative) mul(dst, x []float64, n int) {
 	}
 }
 
-// factor prepares the preconditioner for the leading n unknowns with the
-// strong block of nS unknowns: the dense LU of A_SS and the inverse 2x2
-// diagonal blocks of the W pairs.
-func (it *iterative) factor(nS, n, np int) bool {
+// factor computes the dense LU of the strong block A_SS of nS unknowns.
+func (it *iterative) factor(nS int) bool {
+	if need := nS * nS; len(it.lu) < need {
+		it.lu = make([]float64, need, need+need/2) // grows a few times per model
+	}
 	it.nS = nS
 	lu := it.lu[:nS*nS]
 	for i := range lu {
@@ -251,24 +292,21 @@ func (it *iterative) factor(nS, n, np int) bool {
 			lu[i*nS+c] = it.val[p]
 		}
 	}
-	if !lapack64.Getrf(blas64.General{Rows: nS, Cols: nS, Stride: nS, Data: lu}, it.ipiv[:nS]) {
-		return false
-	}
+	return lapack64.Getrf(blas64.General{Rows: nS, Cols: nS, Stride: nS, Data: lu}, it.ipiv[:nS])
+}
+
+// invertPairs computes the inverse 2x2 diagonal blocks of the weak pairs
+// from nS to n.
+func (it *iterative) invertPairs(nS, n, np int) bool {
 	for k := nS; k < n; k += 2 {
-		var b [4]float64 // [[a, b], [c, d]]
-		for r := 0; r < 2; r++ {
-			for p := it.rowPtr[k+r]; p < it.rowPtr[k+r+1]; p++ {
-				c := int(it.col[p])
-				if c == k || c == k+1 {
-					b[2*r+c-k] = it.val[p]
-				}
-			}
-		}
-		det := b[0]*b[3] - b[1]*b[2]
+		q := (k - np) / 2
+		d := it.diag[4*q : 4*q+4]
+		a, b, c, e := it.val[d[0]], it.val[d[1]], it.val[d[2]], it.val[d[3]] // [[a, b], [c, e]]
+		det := a*e - b*c
 		if det == 0 || math.IsNaN(det) {
 			return false
 		}
-		it.dinv[(k-np)/2] = [4]float64{b[3] / det, -b[1] / det, -b[2] / det, b[0] / det}
+		it.dinv[q] = [4]float64{e / det, -b / det, -c / det, a / det}
 	}
 	return true
 }
@@ -303,23 +341,18 @@ func (it *iterative) precond(dst, src []float64, n, np int) {
 	}
 }
 
-var errNoConvergence = errors.New("iterative class solve did not converge")
-
 // solve solves class j (right-hand side in cs.x, solution written there)
 // for the class's largest rate rc.
 func (it *iterative) solve(cs *coherent, j int, rc float64) error {
 	n := cs.dim
 	np := cs.nU + cs.nL
-	nS := np + 2*searchBelow(cs.keptW, strongFactor*rc)
+	nS := np + 2*searchBelow(cs.keptW, it.strong*rc)
 	it.assemble(cs)
 	it.solves++
 	if nS == n {
 		return it.dense(cs, n)
 	}
-	if need := nS * nS; len(it.lu) < need {
-		it.lu = make([]float64, need, need+need/2) // grows a few times per model
-	}
-	if !it.factor(nS, n, np) {
+	if !it.factor(nS) || !it.invertPairs(nS, n, np) {
 		return it.dense(cs, n)
 	}
 	b := cs.x[:n]
