@@ -98,6 +98,13 @@ func BenchmarkStepDensity(b *testing.B) {
 // time).
 func BenchmarkSyntheticJ65Auto(b *testing.B) { benchJ65(b, Auto) }
 
+// BenchmarkSyntheticJ65Density forces the density matrix on the synthetic
+// J=6-5 line (about 2100 real unknowns per class at R/Gamma = 1e3, which
+// the automatic model declines): the cost of its coherences, to compare
+// with BenchmarkSyntheticJ65 side by side. Minutes per run; use
+// -benchtime 1x.
+func BenchmarkSyntheticJ65Density(b *testing.B) { benchJ65(b, Density) }
+
 // BenchmarkSyntheticJ65 runs the synthetic J=6-5 hyperfine preset (104
 // upper and 88 lower sublevels, about 1700 lines at 1 G) with 256 channels
 // to R/Gamma = 1e3 with the rate equations. Target: under 1.2 s (issue 13;
