@@ -6,6 +6,7 @@ import (
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/lapack/gonum"
 	"gonum.org/v1/gonum/lapack/lapack64"
 )
 
@@ -297,7 +298,12 @@ func (it *iterative) factor(nS int) bool {
 			lu[i*nS+c] = it.val[p]
 		}
 	}
-	return lapack64.Getrf(blas64.General{Rows: nS, Cols: nS, Stride: nS, Data: lu}, it.ipiv[:nS])
+	// The unblocked LU: the blocked one (lapack64.Getrf) hands its updates
+	// to a Dgemm that allocates per call, and at the one or two hundred
+	// unknowns of a strong block it is no faster within the noise of
+	// BenchmarkClassSolve (3.9-7.1 ms against 4.5-7.4 ms per water class
+	// at R/Gamma = 1e3, alternating runs).
+	return gonum.Implementation{}.Dgetf2(nS, nS, lu, nS, it.ipiv[:nS])
 }
 
 // invertPairs computes the inverse 2x2 diagonal blocks of the weak pairs
