@@ -52,14 +52,23 @@ const iterativeFrom = 64
 // populations in the dense LU.
 const strongFactor = 1.0
 
-// classTol is GMRES's relative residual target; gmresRestart its Krylov
-// dimension and gmresMaxIter the iterations after which the class falls
-// back to a dense LU.
+// classTol is GMRES's relative residual target at the default step
+// tolerance (it scales with Params.Tolerance, between classTolMin and
+// classTol: tighter runs such as zeeman-factor's at 1e-7 get 1e-13);
+// gmresRestart is the Krylov dimension and gmresMaxIter the iterations
+// after which the class falls back to a dense LU.
 const (
 	classTol     = 1e-11
+	classTolMin  = 1e-13
 	gmresRestart = 40
 	gmresMaxIter = 400
 )
+
+// residualTarget returns GMRES's relative residual target for a run of
+// step tolerance tol.
+func residualTarget(tol float64) float64 {
+	return math.Max(classTolMin, math.Min(classTol, classTol*tol/DefaultTolerance))
+}
 
 // iterative holds the sparse class matrix and the GMRES workspaces.
 type iterative struct {
@@ -78,6 +87,7 @@ type iterative struct {
 	gf    []float64
 
 	strong float64 // c of the strong block (strongFactor; tests vary it)
+	tol    float64 // relative residual target (residualTarget)
 	nS     int     // size of the factored strong block
 	diag   []int32 // value positions of each weak pair's 2x2 diagonal block
 	lu     []float64
@@ -100,9 +110,9 @@ type iterative struct {
 
 // newIterative builds the sparse pattern of cs's class matrix and the
 // workspaces for nc velocity classes.
-func newIterative(cs *coherent, nc int) *iterative {
+func newIterative(cs *coherent, nc int, tol float64) *iterative {
 	dim := cs.dim
-	it := &iterative{dim: dim, strong: strongFactor}
+	it := &iterative{dim: dim, strong: strongFactor, tol: residualTarget(tol)}
 	// Pattern: the diagonal (2x2 blocks for the pairs), then every entry.
 	rows := make([][]int32, dim)
 	for i := 0; i < dim; i++ {
@@ -411,7 +421,7 @@ func (it *iterative) gmres(b, x []float64, n, np int) bool {
 		}
 		return true
 	}
-	tol := classTol * bn
+	tol := it.tol * bn
 	r := it.r[:n]
 	total := 0
 	for total < gmresMaxIter {

@@ -476,7 +476,7 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 	cs.x = make([]float64, dim)
 	cs.g = make([]complex128, len(cs.pairs))
 	if dim > iterativeFrom {
-		cs.it = newIterative(cs, m.n)
+		cs.it = newIterative(cs, m.n, m.p.Tolerance)
 	} else {
 		cs.a = make([]float64, dim*dim)
 		cs.ipiv = make([]int, dim)

@@ -135,10 +135,12 @@ const AutoCoherenceFrom = 1e-3
 // densely in every class at the peak). Above either, Auto keeps the rate
 // equations with a warning; Density runs the system anyway. Measured
 // (2 shared cores): h2o-22 at 0.3 G to R/Gamma = 1e3, 886 unknowns with
-// a strong block of 152, about 0.25 ms per 1000 unknowns per class solve.
+// a strong block of 152, about a minute per 256-channel model; at 10 mG
+// to R/Gamma = 100 the strong block is 378 and a 5-angle zeeman-factor
+// table took over ten minutes, which is why the strong limit is 200.
 const (
 	autoMaxDim    = 1500
-	autoMaxStrong = 500
+	autoMaxStrong = 200
 )
 
 // strongAt returns the size of the strong block of the class system at a
@@ -187,6 +189,13 @@ func (m *Model) Velocity() []float64 { return m.v }
 
 // GOmega returns the Zeeman splitting in rate units, s^-1 (see doc.go).
 func (m *Model) GOmega() float64 { return m.gOmega }
+
+// Coherent reports whether the density matrix is available to the run:
+// always with Density, and with Auto when the species' class system lies
+// within the automatic model's limits (Auto still runs the rate equations
+// while R/(g Omega) < AutoCoherenceFrom). Callers that compare runs, such
+// as a linearity test at two fields, use it to hold one model throughout.
+func (m *Model) Coherent() bool { return m.cs != nil }
 
 func (m *Model) warnf(format string, args ...any) {
 	m.warnings = append(m.warnings, fmt.Sprintf(format, args...))

@@ -272,6 +272,9 @@ func ZeemanFactors(ctx context.Context, spec FactorSpec, workers int, run RunFun
 			cases = append(cases, Case{Mechanism: FieldIsotropic, Theta: th, Params: p})
 		}
 	}
+	if err := samePopulationModel(cases, f); err != nil {
+		return nil, err
+	}
 	trs := make([]*transfer.Trajectory, len(cases))
 	errs := make([]error, len(cases))
 	res := runTrajectories(ctx, cases, workers, run, nil)
@@ -392,4 +395,33 @@ func runTrajectories(ctx context.Context, cases []Case, workers int, run RunFunc
 		}
 	}
 	return out
+}
+
+// samePopulationModel holds one population model for the B0 and 2 B0 runs
+// of every angle, so that their ratio (Linearity) compares like with like:
+// with the automatic model, the smallest field has the most strongly
+// coupled coherences, and when the automatic model keeps the rate
+// equations there, every run is set to the rate equations (with a
+// warning in f).
+func samePopulationModel(cases []Case, f *Factors) error {
+	if len(cases) == 0 || cases[0].Params.Population != transfer.Auto {
+		return nil
+	}
+	p := cases[0].Params // B0, the first angle
+	tr, err := levels.NewTransition(p.Species, p.Field)
+	if err != nil {
+		return err
+	}
+	m, err := transfer.NewModel(tr, p)
+	if err != nil {
+		return err
+	}
+	if m.Coherent() {
+		return nil
+	}
+	for i := range cases {
+		cases[i].Params.Population = transfer.Rates
+	}
+	f.Warnings = append(f.Warnings, fmt.Sprintf("the automatic population model keeps the rate equations at B0 = %.4g G for this species: its density matrix there couples more sublevels strongly than the automatic model takes on (README, population models); the 2 B0 runs use the rate equations too, so that the linearity compares like with like", p.Field))
+	return nil
 }

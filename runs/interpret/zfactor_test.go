@@ -112,3 +112,41 @@ func TestZeemanFactorPerpendicularOnly(t *testing.T) {
 		t.Errorf("err = %v, want ErrNoAngles", err)
 	}
 }
+
+// TestZeemanFactorOnePopulationModel: the B0 and 2 B0 runs of a factor
+// table use one population model. Water at 22 mG to R/Gamma = 100 has
+// more strongly coupled coherences than the automatic model takes on, so
+// every run, 2 B0 included (where the automatic model alone would take
+// the density matrix), is set to the rate equations with a warning; SiO
+// keeps the automatic model.
+func TestZeemanFactorOnePopulationModel(t *testing.T) {
+	for _, tc := range []struct {
+		preset string
+		field  float64
+		want   transfer.PopulationModel
+	}{
+		{"h2o-22", 0.0226, transfer.Rates},
+		{"sio-v1-j1-0", 0.1, transfer.Auto},
+	} {
+		sp, err := species.Preset(tc.preset)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var cases []Case
+		for _, b := range []float64{tc.field, 2 * tc.field} {
+			cases = append(cases, Case{Params: transfer.Params{Species: sp, Field: b, Theta: 1, Doppler: 1000, Saturation: 100, Channels: 64}})
+		}
+		f := &Factors{}
+		if err := samePopulationModel(cases, f); err != nil {
+			t.Fatal(err)
+		}
+		for _, c := range cases {
+			if c.Params.Population != tc.want {
+				t.Errorf("%s at %g G: population model %v, want %v", tc.preset, c.Params.Field, c.Params.Population, tc.want)
+			}
+		}
+		if warned := len(f.Warnings) > 0; warned != (tc.want == transfer.Rates) {
+			t.Errorf("%s: warnings %q", tc.preset, f.Warnings)
+		}
+	}
+}
