@@ -197,6 +197,19 @@ func (m *Model) GOmega() float64 { return m.gOmega }
 // as a linearity test at two fields, use it to hold one model throughout.
 func (m *Model) Coherent() bool { return m.cs != nil }
 
+// DensitySize returns the density matrix's real unknowns per velocity
+// class and the size of its strongly coupled block at the target
+// saturation (zeros when the run has no density matrix), and whether both
+// lie within the limits the automatic model takes on: above them a run
+// with the density matrix can take hours (see autoMaxStrong).
+func (m *Model) DensitySize() (unknowns, strong int, practical bool) {
+	if m.cs == nil {
+		return 0, 0, false
+	}
+	unknowns, strong = m.cs.dim, m.cs.strongAt(m.p.Saturation)
+	return unknowns, strong, unknowns <= autoMaxDim && strong <= autoMaxStrong
+}
+
 func (m *Model) warnf(format string, args ...any) {
 	m.warnings = append(m.warnings, fmt.Sprintf(format, args...))
 }

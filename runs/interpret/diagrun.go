@@ -129,7 +129,7 @@ func Diagnose(ctx context.Context, spec DiagnoseSpec, workers int, run RunFunc, 
 	// the weak-field cases divide it by each Grid.WeakRoverGOmega.
 	weak := m.SatLo * ReferenceGamma(base) / g
 	cases := Cases(base, spec.Grid, m.Branch, weak)
-	res := RunCases(ctx, cases, workers, run, progress)
+	res := RunCases(ctx, cases, workers, practicalDensity(run), progress)
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -142,4 +142,29 @@ func Diagnose(ctx context.Context, spec DiagnoseSpec, workers int, run RunFunc, 
 		d.Warnings = append(d.Warnings, w)
 	}
 	return d, nil
+}
+
+// practicalDensity wraps run so that a model forced onto the density
+// matrix (the weak-field cases) whose class system is beyond the limits
+// the automatic model takes on is reported as not computed instead of
+// running for hours (hyperfine-rich species at R >> g Omega, where every
+// Zeeman pair of a hyperfine level is strongly coupled).
+func practicalDensity(run RunFunc) RunFunc {
+	return func(ctx context.Context, p transfer.Params) (*transfer.Trajectory, error) {
+		if p.Population != transfer.Density {
+			return run(ctx, p)
+		}
+		tr, err := levels.NewTransition(p.Species, p.Field)
+		if err != nil {
+			return nil, err
+		}
+		mod, err := transfer.NewModel(tr, p)
+		if err != nil {
+			return nil, err
+		}
+		if n, strong, ok := mod.DensitySize(); !ok {
+			return nil, fmt.Errorf("not computed: the density matrix at B = %.3g G has %d real unknowns per velocity class, %d of them strongly coupled at R/Gamma = %.3g, more than a practical run takes on (hours per model)", p.Field, n, strong, p.Saturation)
+		}
+		return run(ctx, p)
+	}
 }
