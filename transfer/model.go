@@ -103,8 +103,11 @@ type Model struct {
 	warnings []string
 
 	cur, mid, end *state
+	mh            midHistory   // K at earlier step starts (extrapolated K_mid)
 	dense         *state       // checkpoint inside a step (radiation and saturation only)
 	y             [3][]float64 // 3 w.S per channel by q+1, padded
+	yAll          []float64    // the three y, one after the other
+	taps          []rateTap    // the rate interpolation of every line (classRates)
 	yc            [6][]float64 // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
 	r             []float64    // rates of one class
 	dnl           []float64    // inversions of one class
@@ -408,9 +411,11 @@ func (m *Model) setupScales() error {
 	for i := range m.dense.st {
 		m.dense.st[i] = make([]float64, m.n)
 	}
+	m.yAll = make([]float64, len(m.y)*m.stride)
 	for q := range m.y {
-		m.y[q] = make([]float64, m.stride)
+		m.y[q] = m.yAll[q*m.stride : (q+1)*m.stride]
 	}
+	m.taps = rateTaps(m.lines, m.stride, m.pad)
 	if m.cs != nil {
 		for i := range m.yc {
 			m.yc[i] = make([]float64, m.stride)
@@ -573,24 +578,7 @@ func (m *Model) populate(st *state, pos float64) error {
 	nl := len(m.lines)
 	rFloor := m.classCoherentFrom() * m.gOmega / m.gamma
 	for j := m.jlo; j < m.jhi; j++ {
-		rmax := 0.0
-		for i := range m.lines {
-			l := &m.lines[i]
-			y := m.y[l.q+1]
-			k := j + l.i0 + pad
-			yk := y[k-1 : k+3]
-			rl := l.s * (l.w[0]*yk[0] + l.w[1]*yk[1] + l.w[2]*yk[2] + l.w[3]*yk[3])
-			if rl < 0 { // rounding of a fully polarized beam, or overshoot in a steep wing
-				if rl < -1e-12*l.s*yk[1] {
-					m.clamped++
-				}
-				rl = 0
-			}
-			r[i] = rl
-			if rl > rmax {
-				rmax = rl
-			}
-		}
+		rmax := m.classRates(j, r)
 		if coh && rmax >= rFloor {
 			if err := m.cs.solve(m, st, j); err != nil {
 				return m.classError(pos, j, st.sat, err)
