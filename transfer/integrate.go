@@ -168,12 +168,7 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 		// Only the active classes [jlo, jhi) of each slot are ever set.
 		cs := c.src[off+m.pad+m.jlo : off+m.pad+m.jhi]
 		for i, d := range e.src[off+m.pad+m.jlo : off+m.pad+m.jhi] {
-			d -= cs[i]
-			if d > dp {
-				dp = d
-			} else if -d > dp {
-				dp = -d
-			}
+			dp = max(dp, math.Abs(d-cs[i])) // branch-free
 		}
 	}
 	worst = math.Max(worst, dp/maxDPop)

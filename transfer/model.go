@@ -103,14 +103,14 @@ type Model struct {
 	warnings []string
 
 	cur, mid, end *state
-	mh            midHistory   // K at earlier step starts (extrapolated K_mid)
-	dense         *state       // checkpoint inside a step (radiation and saturation only)
-	y             [3][]float64 // 3 w.S per channel by q+1, padded
-	yAll          []float64    // the three y, one after the other
-	taps          []rateTap    // the rate interpolation of every line (classRates)
-	yc            [6][]float64 // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
-	r             []float64    // rates of one class
-	dnl           []float64    // inversions of one class
+	mh            midHistory      // K at earlier step starts (extrapolated K_mid)
+	dense         *state          // checkpoint inside a step (radiation and saturation only)
+	y             [3][]float64    // 3 w.S per channel by q+1, padded
+	yAll          []float64       // the three y, one after the other
+	taps          []rateTap       // the rate interpolation of every line (classRates)
+	yc            [6][]float64    // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
+	r             []float64       // rates of one class
+	dn            classInversions // rate-equation inversions of every class, stored once per populate
 	acc           [numAcc][]float64
 	steps, rej    int
 	clamped       int // interpolated rates below zero (under-resolved spectrum)
@@ -425,7 +425,7 @@ func (m *Model) setupScales() error {
 		m.acc[i] = make([]float64, m.n)
 	}
 	m.r = make([]float64, len(m.lines))
-	m.dnl = make([]float64, len(m.lines))
+	m.dn = newClassInversions(len(m.lines), m.jlo, m.jhi)
 
 	// Gain normalization from the unsaturated populations (no radiation:
 	// both population models give the same, coherence-free state).
@@ -574,7 +574,7 @@ func (m *Model) populate(st *state, pos float64) error {
 	// whose largest rate is below classCoherentFrom x g Omega (a far wing
 	// of a narrowed line) is solved by the rate equations, which agree with
 	// it to second order in that ratio; its coherence slots are zero.
-	r, dnl := m.r, m.dnl
+	r := m.r
 	nl := len(m.lines)
 	rFloor := m.classCoherentFrom() * m.gOmega / m.gamma
 	for j := m.jlo; j < m.jhi; j++ {
@@ -585,11 +585,8 @@ func (m *Model) populate(st *state, pos float64) error {
 			}
 			continue
 		}
-		if err := m.rs.solve(r, m.phi[j], dnl); err != nil {
+		if err := m.rs.solve(r, m.phi[j], m.dn.class(j)); err != nil {
 			return m.classError(pos, j, st.sat, err)
-		}
-		for i, d := range dnl {
-			st.src[i*m.stride+pad+j] = d
 		}
 		if coh {
 			for s := range m.cs.slots {
@@ -597,6 +594,7 @@ func (m *Model) populate(st *state, pos float64) error {
 			}
 		}
 	}
+	m.dn.store(st.src, m.stride, pad)
 	st.coherent = coh
 	m.buildK(st)
 	return nil
@@ -605,6 +603,7 @@ func (m *Model) populate(st *state, pos float64) error {
 // classError reports a failed class solve with its position, class and
 // saturation.
 func (m *Model) classError(pos float64, j int, sat float64, err error) error {
+	m.dn.clear() // the populate is abandoned: no class of it is to be stored
 	model := "rate equations"
 	if m.csOn {
 		model = "density matrix"
