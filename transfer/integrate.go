@@ -164,6 +164,14 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 	if c.coherent && e.coherent {
 		nsrc = len(e.src)
 	}
+	if c.clsAll && e.clsAll {
+		// The same inversions, contiguous.
+		cc := c.cls[:len(e.cls)]
+		for i, d := range e.cls {
+			dp = max(dp, math.Abs(d-cc[i]))
+		}
+		nsrc = 0
+	}
 	for off := 0; off < nsrc; off += m.stride {
 		// Only the active classes [jlo, jhi) of each slot are ever set.
 		cs := c.src[off+m.pad+m.jlo : off+m.pad+m.jhi]

@@ -60,6 +60,11 @@ type state struct {
 	coherent       bool      // src holds density-matrix values (coherence slots valid)
 	eI, eQ, eU, eV []float64 // propagation per channel
 	sat            float64   // max over lines of R/Gamma at line centre
+	// cls holds the rate-equation inversions class by class (class j -
+	// jlo, then line), the source of src's line slots; clsAll says that
+	// every class of src came from it (no density matrix).
+	cls    []float64
+	clsAll bool
 }
 
 // Model is a saturating polarized maser column for one transition and one
@@ -425,7 +430,7 @@ func (m *Model) setupScales() error {
 		m.acc[i] = make([]float64, m.n)
 	}
 	m.r = make([]float64, len(m.lines))
-	m.dn = newClassInversions(len(m.lines), m.jlo, m.jhi)
+	m.dn = classInversions{nl: len(m.lines), jlo: m.jlo, done: make([]bool, m.jhi-m.jlo)}
 
 	// Gain normalization from the unsaturated populations (no radiation:
 	// both population models give the same, coherence-free state).
@@ -458,7 +463,7 @@ func (m *Model) newState() *state {
 	if m.cs != nil {
 		slots += len(m.cs.slots)
 	}
-	s := &state{src: make([]float64, slots*m.stride)}
+	s := &state{src: make([]float64, slots*m.stride), cls: make([]float64, (m.jhi-m.jlo)*len(m.lines))}
 	for i := range s.st {
 		s.st[i] = make([]float64, m.n)
 	}
@@ -585,7 +590,7 @@ func (m *Model) populate(st *state, pos float64) error {
 			}
 			continue
 		}
-		if err := m.rs.solve(r, m.phi[j], m.dn.class(j)); err != nil {
+		if err := m.rs.solve(r, m.phi[j], m.dn.class(st.cls, j)); err != nil {
 			return m.classError(pos, j, st.sat, err)
 		}
 		if coh {
@@ -594,8 +599,8 @@ func (m *Model) populate(st *state, pos float64) error {
 			}
 		}
 	}
-	m.dn.store(st.src, m.stride, pad)
-	st.coherent = coh
+	m.dn.store(st.cls, st.src, m.stride, pad)
+	st.coherent, st.clsAll = coh, !coh
 	m.buildK(st)
 	return nil
 }

@@ -521,49 +521,85 @@ func (rs *rateSolver) solveOne(r []float64, phi float64, dn []float64) {
 // TestBandCholSolve checks it against lapack64.
 func bandCholSolve(a, b []float64, n, kd int) bool {
 	ld := kd + 1
-	// Two pivot rows per pass: the trailing update is then rank 2, and
-	// each trailing entry is loaded and stored once for both.
-	for i := 0; i < n; i += 2 {
-		u, ok := cholPivot(a[i*ld : i*ld+min(ld, n-i)])
-		if !ok {
-			return false
-		}
-		if i+1 == n {
-			break
-		}
-		// Row i+1 from its diagonal on takes the first trailing update.
-		r1 := a[(i+1)*ld : (i+1)*ld+min(ld, n-i-1)]
-		if u0 := u[0]; u0 != 0 {
-			rr := r1[:len(u)]
-			for q, uq := range u {
-				rr[q] -= u0 * uq
+	row := func(i int) []float64 { return a[i*ld : i*ld+min(ld, n-i)] }
+	// Four pivot rows per pass: they are factored among themselves, then
+	// the trailing rows take one rank-4 update, each entry loaded and
+	// stored once for all four.
+	i := 0
+	for ; i+4 <= n; i += 4 {
+		var u [4][]float64 // rows i..i+3 of U beyond the diagonal
+		for g := range u {
+			r := row(i + g)
+			for gp := 0; gp < g; gp++ {
+				// A[i+g, i+g+q] -= U[i+gp, i+g] U[i+gp, i+g+q].
+				off := g - gp - 1
+				if off >= len(u[gp]) || u[gp][off] == 0 {
+					continue
+				}
+				c, w := u[gp][off], u[gp][off:]
+				rr := r[:len(w)]
+				for q, x := range w {
+					rr[q] -= c * x
+				}
+			}
+			var ok bool
+			if u[g], ok = cholPivot(r); !ok {
+				return false
 			}
 		}
-		u1, ok := cholPivot(r1)
-		if !ok {
-			return false
-		}
-		// Rows p = i+2+t: A[p, p+q] -= u[1+t] u[1+t+q] + u1[t] u1[t+q].
-		for t := range u1 {
-			c1 := u1[t]
-			w1 := u1[t:]
-			c0 := 0.0
-			var w0 []float64
-			if 1+t < len(u) {
-				c0, w0 = u[1+t], u[1+t:]
+		// Rows p = i+4+t: A[p, p+q] -= sum_g U[i+g, p] U[i+g, p+q]; the
+		// run of pivot g is u[g][3+t-g:], one longer than that of g-1
+		// (or equal where the matrix ends).
+		u0, u1, u2, u3 := u[0], u[1], u[2], u[3]
+		for t := range u3 {
+			var c0, c1, c2 float64
+			var w0, w1, w2 []float64
+			if 3+t < len(u0) {
+				c0, w0 = u0[3+t], u0[3+t:]
 			}
-			if c0 == 0 && c1 == 0 {
+			if 2+t < len(u1) {
+				c1, w1 = u1[2+t], u1[2+t:]
+			}
+			if 1+t < len(u2) {
+				c2, w2 = u2[1+t], u2[1+t:]
+			}
+			c3, w3 := u3[t], u3[t:]
+			if c0 == 0 && c1 == 0 && c2 == 0 && c3 == 0 {
 				continue
 			}
-			row := a[(i+2+t)*ld:]
-			row = row[:len(w1)]
-			w0 = w0[:min(len(w0), len(w1))]
-			w1a := w1[:len(w0)]
-			for q, x0 := range w0 {
-				row[q] -= c0*x0 + c1*w1a[q]
+			r := a[(i+4+t)*ld:]
+			r = r[:len(w3)]
+			n0 := len(w0)
+			x1, x2, x3, r0 := w1[:n0], w2[:n0], w3[:n0], r[:n0]
+			for q, x := range w0 {
+				r0[q] -= c0*x + c1*x1[q] + c2*x2[q] + c3*x3[q]
 			}
-			for q := len(w0); q < len(w1); q++ {
-				row[q] -= c1 * w1[q]
+			for q := n0; q < len(w1); q++ {
+				r[q] -= c1*w1[q] + c2*w2[q] + c3*w3[q]
+			}
+			for q := max(n0, len(w1)); q < len(w2); q++ {
+				r[q] -= c2*w2[q] + c3*w3[q]
+			}
+			for q := max(n0, len(w1), len(w2)); q < len(w3); q++ {
+				r[q] -= c3 * w3[q]
+			}
+		}
+	}
+	// The last rows one at a time (rank-1 trailing updates).
+	for ; i < n; i++ {
+		u, ok := cholPivot(row(i))
+		if !ok {
+			return false
+		}
+		for p, up := range u {
+			if up == 0 {
+				continue
+			}
+			uu := u[p:]
+			r := a[(i+1+p)*ld:]
+			r = r[:len(uu)]
+			for q, x := range uu {
+				r[q] -= up * x
 			}
 		}
 	}
@@ -661,44 +697,39 @@ func (m *Model) classRates(j int, r []float64) float64 {
 	return rmax
 }
 
-// classInversions collects the inversions of the classes solved by the
-// rate equations class by class (contiguous per class) and stores them
-// into a state's slots (contiguous per line) once all classes are done,
-// in blocks of lines: written one class at a time, every line of every
-// class lands in its own page of the slot array (6 MB for
-// synthetic-j6-5), and the TLB misses cost more than the class solve's
-// back substitution.
+// classInversions tracks the classes of a populate solved by the rate
+// equations, whose inversions go class by class (contiguous per class)
+// into a state's cls and from there into its slots (contiguous per line)
+// once all classes are done, in blocks of lines: written one class at a
+// time, every line of every class lands in its own page of the slot
+// array (6 MB for synthetic-j6-5), and the TLB misses cost more than the
+// class solve's back substitution.
 type classInversions struct {
 	nl, jlo int
-	dn      []float64 // class j - jlo: dn[(j-jlo)*nl:][:nl]
-	done    []bool    // class solved since the last store
+	done    []bool // class solved since the last store
 }
 
-func newClassInversions(nl, jlo, jhi int) classInversions {
-	return classInversions{nl: nl, jlo: jlo, dn: make([]float64, (jhi-jlo)*nl), done: make([]bool, jhi-jlo)}
-}
-
-// class returns the buffer of class j's inversions and marks it solved.
-func (ci *classInversions) class(j int) []float64 {
+// class returns class j's part of cls and marks the class solved.
+func (ci *classInversions) class(cls []float64, j int) []float64 {
 	i := j - ci.jlo
 	ci.done[i] = true
-	return ci.dn[i*ci.nl : (i+1)*ci.nl]
+	return cls[i*ci.nl : (i+1)*ci.nl]
 }
 
 // classStoreBlock is the number of lines stored together (their slot
 // rows and the class rows stay within the TLB).
 const classStoreBlock = 32
 
-// store writes the inversions of the solved classes into src (line l,
-// class j at l*stride + pad + j) and clears the marks.
-func (ci *classInversions) store(src []float64, stride, pad int) {
+// store writes the inversions of the solved classes from cls into src
+// (line l, class j at l*stride + pad + j) and clears the marks.
+func (ci *classInversions) store(cls, src []float64, stride, pad int) {
 	for l0 := 0; l0 < ci.nl; l0 += classStoreBlock {
 		l1 := min(l0+classStoreBlock, ci.nl)
 		for i, ok := range ci.done {
 			if !ok {
 				continue
 			}
-			row := ci.dn[i*ci.nl+l0 : i*ci.nl+l1]
+			row := cls[i*ci.nl+l0 : i*ci.nl+l1]
 			at := l0*stride + pad + ci.jlo + i
 			for _, d := range row {
 				src[at] = d
