@@ -55,6 +55,8 @@ type rateSolver struct {
 	// Kept diagonal (decay plus total rate), and workspaces of solveWeak.
 	dK, invK, acc []float64
 	weak          bool // the last class was solved by solveWeak (for tests)
+	weakMax       float64
+	weakSweeps    int
 	// Consecutive eliminated states with nearly the same kept range are
 	// updated together, up to schurRank at a time, as one rank-m update of
 	// their union range: each entry of the kept matrix is loaded and
@@ -124,15 +126,17 @@ func newRateSolverSide(nU, nL int, lines []line, gU, gL float64, pumpU, pumpL []
 	for l, ln := range lines {
 		up[l], lo[l] = ln.up, ln.lo
 	}
-	_, kdU := solverCost(nU, nL, up, lo)
-	_, kdL := solverCost(nL, nU, lo, up)
+	costU, kdU := solverCost(nU, nL, up, lo)
+	costL, kdL := solverCost(nL, nU, lo, up)
 	rs := &rateSolver{keepUpper: keepUpper}
 	if rs.keepUpper {
 		rs.nK, rs.nE, rs.gK, rs.gE, rs.pK, rs.pE = nU, nL, gU, gL, pumpU, pumpL
 		rs.kOf, rs.eOf, rs.kd = up, lo, kdU
+		rs.setWeak(costU)
 	} else {
 		rs.nK, rs.nE, rs.gK, rs.gE, rs.pK, rs.pE = nL, nU, gL, gU, pumpL, pumpU
 		rs.kOf, rs.eOf, rs.kd = lo, up, kdL
+		rs.setWeak(costL)
 	}
 	nK := rs.nK
 	rs.band = nK > 8 && rs.kd < 32 && 2*rs.kd < nK
@@ -278,23 +282,26 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 	for k := range dK {
 		dK[k] = rs.gK
 	}
-	ce := 0.0
+	// R/(g + R) grows with the total rate R: the bound takes the largest.
+	re := 0.0
 	for e := 0; e < rs.nE; e++ {
 		lo, hi := rs.eOff[e], rs.eOff[e+1]
 		ks := rs.ordK[lo:hi]
-		d := rs.gE
+		d := 0.0
 		for i, rl := range rp[lo:hi] {
 			dK[ks[i]] += rl
 			d += rl
 		}
-		rs.dE[e] = d
-		ce = max(ce, (d-rs.gE)/d)
+		rs.dE[e] = rs.gE + d
+		re = max(re, d)
 	}
-	ck := 0.0
+	rk := 0.0
 	for _, d := range dK {
-		ck = max(ck, (d-rs.gK)/d)
+		rk = max(rk, d)
 	}
-	if c := ck * ce; c < weakMax && rs.solveWeak(c, phi, dn) {
+	rk -= rs.gK
+	c := rk / (rs.gK + rk) * re / (rs.gE + re)
+	if c < rs.weakMax && rs.solveWeak(c, phi, dn) {
 		rs.weak = true
 		return nil
 	}
@@ -377,16 +384,28 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 	return nil
 }
 
-// weakMax is the contraction bound below which a class is solved by
-// iteration (solveWeak) instead of the direct elimination, and
-// weakSweeps the most sweeps it may take: at 0.03 the bound reaches
-// rounding in at most ten sweeps (each two passes over the lines, against
-// about twenty for the elimination of synthetic-j6-5 or h2o-22).
+// weakEps bounds the error of solveWeak relative to the largest kept
+// population, and weakSweepsMax the sweeps it may take.
 const (
-	weakMax    = 0.03
-	weakSweeps = 10
-	weakEps    = 1e-15 // bound on the error, relative to the largest kept population
+	weakEps       = 1e-15
+	weakSweepsMax = 12
 )
+
+// setWeak sets the iteration's limits from the cost of the elimination:
+// a sweep (two passes over the lines) may be repeated while the sweeps
+// cost at most half of an elimination (its flop estimate from
+// solverCost), and classes are tried whose contraction bound c reaches
+// weakEps within that many sweeps (c^sweeps <= weakEps). For
+// synthetic-j6-5 that is 9 sweeps below c = 0.02, for h2o-22 3 sweeps
+// below c = 1e-5.
+func (rs *rateSolver) setWeak(directCost float64) {
+	sweep := float64(2*len(rs.kOf) + rs.nK + rs.nE)
+	rs.weakSweeps = min(weakSweepsMax, int(directCost/(2*sweep)))
+	rs.weakMax = 0
+	if rs.weakSweeps > 0 {
+		rs.weakMax = math.Pow(weakEps, 1/float64(rs.weakSweeps))
+	}
+}
 
 // solveWeak solves a weakly saturated class by block Gauss-Seidel on the
 // two sides, n_E = D_E^-1 (phi p_E + R^T x), x = D_K^-1 (phi p_K + R n_E),
@@ -412,7 +431,7 @@ func (rs *rateSolver) solveWeak(c, phi float64, dn []float64) bool {
 		ne[e] = phi * rs.pE[e] / rs.dE[e]
 	}
 	ok := false
-	for sweep := 0; sweep <= weakSweeps; sweep++ {
+	for sweep := 0; sweep <= rs.weakSweeps; sweep++ {
 		// x' = D_K^-1 (phi p_K + R n_E).
 		for e := 0; e < rs.nE; e++ {
 			lo, hi := rs.eOff[e], rs.eOff[e+1]
