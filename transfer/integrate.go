@@ -646,15 +646,23 @@ type kPoint struct {
 	e [4][]float64 // EtaI, EtaQ, EtaU, EtaV
 }
 
+// newMidHistory returns an empty history for n channels.
+func newMidHistory(n int) midHistory {
+	var mh midHistory
+	for i := range mh.h {
+		for j := range mh.h[i].e {
+			mh.h[i].e[j] = make([]float64, n)
+		}
+	}
+	return mh
+}
+
 // push records the propagation of st at position s, dropping the oldest.
 func (mh *midHistory) push(s float64, st *state) {
 	mh.h[0], mh.h[1] = mh.h[1], mh.h[0]
 	p := &mh.h[1]
 	p.s = s
 	for i, src := range [4][]float64{st.eI, st.eQ, st.eU, st.eV} {
-		if len(p.e[i]) != len(src) {
-			p.e[i] = make([]float64, len(src))
-		}
 		copy(p.e[i], src)
 	}
 	mh.n = min(mh.n+1, len(mh.h))

@@ -412,6 +412,7 @@ func (m *Model) setupScales() error {
 	}
 
 	m.cur, m.mid, m.end = m.newState(), m.newState(), m.newState()
+	m.mh = newMidHistory(m.n)
 	m.dense = &state{}
 	for i := range m.dense.st {
 		m.dense.st[i] = make([]float64, m.n)
