@@ -112,7 +112,8 @@ type Model struct {
 	dense         *state          // checkpoint inside a step (radiation and saturation only)
 	y             [3][]float64    // 3 w.S per channel by q+1, padded
 	yAll          []float64       // the three y, one after the other
-	taps          []rateTap       // the rate interpolation of every line (classRates)
+	taps          []rateTap       // the rate interpolation of every line (allRates)
+	rcls          []float64       // rates of every class (class j - jlo, then line)
 	yc            [6][]float64    // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
 	r             []float64       // rates of one class
 	dn            classInversions // rate-equation inversions of every class, stored once per populate
@@ -422,6 +423,7 @@ func (m *Model) setupScales() error {
 		m.y[q] = m.yAll[q*m.stride : (q+1)*m.stride]
 	}
 	m.taps = rateTaps(m.lines, m.stride, m.pad)
+	m.rcls = make([]float64, (m.jhi-m.jlo)*len(m.lines))
 	if m.cs != nil {
 		for i := range m.yc {
 			m.yc[i] = make([]float64, m.stride)
@@ -583,6 +585,7 @@ func (m *Model) populate(st *state, pos float64) error {
 	r := m.r
 	nl := len(m.lines)
 	rFloor := m.classCoherentFrom() * m.gOmega / m.gamma
+	m.allRates()
 	for j := m.jlo; j < m.jhi; j++ {
 		rmax := m.classRates(j, r)
 		if coh && rmax >= rFloor {

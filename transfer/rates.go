@@ -664,11 +664,10 @@ func cholPivot(ri []float64) ([]float64, bool) {
 	return u, true
 }
 
-// rateTap is the rate interpolation of one line packed for the class
-// loop: R_l(class j) = sum_t w[t] yAll[j+off+t], with the line strength
-// folded into the B-spline weights and off locating the line's y_q and
-// kernel position in Model.yAll. A line struct is several cache lines;
-// the taps of all lines of synthetic-j6-5 stay in L2 across classes.
+// rateTap is the rate interpolation of one line packed for allRates:
+// R_l(class j) = sum_t w[t] yAll[j+off+t], with the line strength folded
+// into the B-spline weights and off locating the line's y_q and kernel
+// position in Model.yAll.
 type rateTap struct {
 	w   [4]float64
 	s   float64
@@ -690,28 +689,46 @@ func rateTaps(lines []line, stride, pad int) []rateTap {
 	return taps
 }
 
-// classRates sets r to the stimulated rate of every line in velocity
-// class j (units of Gamma) from the weighted Stokes m.y and returns the
-// largest. A rate below zero (rounding of a fully polarized beam, or
-// overshoot of the interpolation in a steep wing) is set to zero and
-// counted in m.clamped when it is more than rounding.
-func (m *Model) classRates(j int, r []float64) float64 {
-	y := m.yAll
-	r = r[:len(m.taps)]
-	rmax := 0.0
-	for i := range m.taps {
-		t := &m.taps[i]
-		k := j + t.off
-		yk := y[k : k+4]
-		rl := t.w[0]*yk[0] + t.w[1]*yk[1] + t.w[2]*yk[2] + t.w[3]*yk[3]
-		if rl < 0 {
-			if rl < -1e-12*t.s*yk[1] {
-				m.clamped++
+// allRates sets m.rcls to the stimulated rate of every line in every
+// active class (units of Gamma) from the weighted Stokes m.y, line by
+// line: the four taps of a line stay in registers and y is read
+// contiguously across the classes (class by class, loading the line data
+// cost more than the arithmetic). A rate below zero (rounding of a fully
+// polarized beam, or overshoot of the interpolation in a steep wing) is
+// set to zero and counted in m.clamped when it is more than rounding.
+func (m *Model) allRates() {
+	nl, nc := len(m.taps), m.jhi-m.jlo
+	rc := m.rcls[:nc*nl]
+	for l := range m.taps {
+		t := &m.taps[l]
+		w0, w1, w2, w3 := t.w[0], t.w[1], t.w[2], t.w[3]
+		y := m.yAll[m.jlo+t.off : m.jlo+t.off+nc+3]
+		at := l
+		for c := 0; c < nc; c++ {
+			yk := y[c : c+4]
+			rl := w0*yk[0] + w1*yk[1] + w2*yk[2] + w3*yk[3]
+			if rl < 0 {
+				if rl < -1e-12*t.s*yk[1] {
+					m.clamped++
+				}
+				rl = 0
 			}
-			rl = 0
+			rc[at] = rl
+			at += nl
 		}
-		r[i] = rl
-		rmax = max(rmax, rl)
+	}
+}
+
+// classRates copies the rates of class j from m.rcls (set by allRates)
+// into r and returns the largest.
+func (m *Model) classRates(j int, r []float64) float64 {
+	nl := len(m.taps)
+	src := m.rcls[(j-m.jlo)*nl : (j-m.jlo+1)*nl]
+	r = r[:len(src)]
+	rmax := 0.0
+	for i, v := range src {
+		r[i] = v
+		rmax = max(rmax, v)
 	}
 	return rmax
 }
