@@ -24,10 +24,12 @@ import (
 // symmetric, strictly diagonally dominant and hence positive-definite
 // system on the smaller side, solved by Cholesky (gonum lapack64).
 //
-// Each class is solved directly, so the result does not depend on a
-// starting guess; the populations carried over from the previous step
-// (warm start) give the propagation matrix at the start of the next step
-// without a new solve.
+// Each class is solved directly, or, where its rates are weak against the
+// decay rates and that is cheaper, by an iteration started from zero and
+// stopped at a proven error bound at rounding level (solveWeak); either
+// way the result does not depend on a starting guess. The populations
+// carried over from the previous step (warm start) give the propagation
+// matrix at the start of the next step without a new solve.
 
 // rateSolver solves the rate equations of one velocity class. It owns its
 // workspaces; solve does not allocate.
