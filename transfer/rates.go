@@ -194,7 +194,11 @@ func newRateSolverSide(nU, nL int, lines []line, gU, gL float64, pumpU, pumpL []
 	}
 	rs.rp = make([]float64, len(lines))
 	rs.dK, rs.invK, rs.acc = make([]float64, nK), make([]float64, nK), make([]float64, nK)
-	rs.chunks = chunkSchur(rs.k0, rs.kw)
+	maxW := nK
+	if rs.band {
+		maxW = rs.kd + 1
+	}
+	rs.chunks = chunkSchur(rs.k0, rs.kw, maxW)
 	cw := 0
 	for _, c := range rs.chunks {
 		cw = max(cw, c.w)
@@ -231,8 +235,10 @@ type schurChunk struct{ e0, m, k0, w int }
 // chunkSchur groups consecutive eliminated states (in state order, which
 // is M order) into chunks of up to schurRank, closing a chunk when the
 // union of the kept ranges would exceed the widest range in it by more
-// than an eighth (the zero padding costs arithmetic).
-func chunkSchur(k0, kw []int) []schurChunk {
+// than an eighth (the zero padding costs arithmetic) or maxW, the
+// stored width of a row of the kept matrix from its diagonal on (the
+// union's row segments must stay within their rows).
+func chunkSchur(k0, kw []int, maxW int) []schurChunk {
 	var cs []schurChunk
 	var cur schurChunk
 	widest := 0
@@ -248,7 +254,7 @@ func chunkSchur(k0, kw []int) []schurChunk {
 		}
 		if cur.m > 0 {
 			lo, hi := min(cur.k0, k0[e]), max(cur.k0+cur.w, k0[e]+kw[e])
-			if cur.m == schurRank || cur.e0+cur.m != e || 8*(hi-lo) > 9*max(widest, kw[e]) {
+			if cur.m == schurRank || cur.e0+cur.m != e || 8*(hi-lo) > 9*max(widest, kw[e]) || hi-lo > maxW {
 				flush()
 			} else {
 				cur.m++
