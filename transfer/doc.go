@@ -153,12 +153,12 @@
 // populations at the predictor exp(K0 h/2) S; from then on it is
 // extrapolated by the quadratic through K at the last two step starts and
 // K0 (one population solve per step instead of two; the extrapolation
-// error is O(h^3) in K_mid, a higher order than the rule's own). The local
-// error is estimated from the trapezoidal exponential exp((K0+K1) h/2) S
-// (an embedded second-order pair) plus the extrapolation error, measured
-// against K_mid interpolated through K at the last step start, K0 and K1,
-// and held below Tolerance in ln I and in the
-// fractional polarizations, where channels below 1e-2 of the peak I count
+// error is O(h^3) in K_mid, so O(h^4) in S1, one order higher than the
+// rule's own O(h^3)). The local error is estimated from the trapezoidal
+// exponential exp((K0+K1) h/2) S (an embedded second-order pair) plus the
+// extrapolation error, measured against K_mid interpolated through K at
+// the last step start, K0 and K1, and held below Tolerance in ln I and in
+// the fractional polarizations, where channels below 1e-2 of the peak I count
 // in proportion to their intensity (|dS|/max(I, 1e-2 I_peak): the reported
 // q_b, m_l and P_V = (V_max - V_min)/I_peak do not depend on relative
 // errors far down the wings); steps are also limited to a change of 2 in
