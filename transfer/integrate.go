@@ -168,7 +168,9 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 		// The same inversions, contiguous.
 		cc := c.cls[:len(e.cls)]
 		for i, d := range e.cls {
-			dp = max(dp, math.Abs(d-cc[i]))
+			if a := math.Abs(d - cc[i]); a > dp {
+				dp = a
+			}
 		}
 		nsrc = 0
 	}
@@ -176,7 +178,9 @@ func (m *Model) step(pos, h float64) (float64, int, error) {
 		// Only the active classes [jlo, jhi) of each slot are ever set.
 		cs := c.src[off+m.pad+m.jlo : off+m.pad+m.jhi]
 		for i, d := range e.src[off+m.pad+m.jlo : off+m.pad+m.jhi] {
-			dp = max(dp, math.Abs(d-cs[i])) // branch-free
+			if a := math.Abs(d - cs[i]); a > dp {
+				dp = a
+			}
 		}
 	}
 	worst = math.Max(worst, dp/maxDPop)

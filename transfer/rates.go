@@ -453,10 +453,14 @@ func (rs *rateSolver) solveWeak(c, phi float64, dn []float64) bool {
 		for k, v := range acc {
 			v *= invK[k]
 			if sweep > 0 {
-				delta = max(delta, math.Abs(v-x[k]))
+				if d := math.Abs(v - x[k]); d > delta {
+					delta = d
+				}
 			}
 			x[k] = v
-			xmax = max(xmax, math.Abs(v))
+			if a := math.Abs(v); a > xmax {
+				xmax = a
+			}
 			acc[k] = phi * rs.pK[k]
 		}
 		// n_E = D_E^-1 (phi p_E + R^T x), consistent with x.
@@ -736,7 +740,9 @@ func (m *Model) classRates(j int, r []float64) float64 {
 	rmax := 0.0
 	for i, v := range src {
 		r[i] = v
-		rmax = max(rmax, v)
+		if v > rmax { // a plain compare: the builtin max handles NaN and -0 at a cost
+			rmax = v
+		}
 	}
 	return rmax
 }
