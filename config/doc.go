@@ -107,7 +107,7 @@
 //	column.gain                    -        -              > 0 .. 700, or target unsaturated gain |tau| (not with saturation), sweep gain
 //	column.checkpoints_per_decade  -        8              1 .. 100, integer, sweep                        checkpoints_per_decade
 //	column.first_checkpoint        -        1e-3           > 0, below saturation, sweep                     first_checkpoint
-//	column.tolerance               -        2e-4           1e-10 .. 0.1, relative error per step, sweep     tolerance
+//	column.tolerance               -        4e-4           1e-10 .. 0.1, relative error per step, sweep     tolerance
 //	output.dir                     -        "runs/<name>"  path, relative to the working directory          -
 //	output.plots                   -        true           true, false                                      -
 //	output.formats                 -        ["png", "svg"] any of "png", "svg", "pdf", "eps"                -

@@ -150,8 +150,10 @@ func benchPreset(b *testing.B, name string, field float64, pm PopulationModel) {
 	}
 }
 
-// BenchmarkLines times one integration step (two population solves over
-// every velocity class plus three exponential transfers over every channel)
+// BenchmarkLines times one integration step without step history (two
+// population solves over every velocity class plus three exponential
+// transfers over every channel; in a run, steps from the third on solve
+// once, see midHistory)
 // for species with increasing numbers of line components, all at 256
 // channels, and reports the cost per line per channel and per line per
 // active velocity class: the measure of how the step scales with the

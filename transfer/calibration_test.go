@@ -15,8 +15,8 @@ import (
 // checkpoint, for J=1-0 (128 channels, to R/Gamma = 1e4), h2o-22 at 0.3 G
 // (128 channels) and synthetic-j6-5 at 1 G (64 channels), both to 1e3 (the
 // channels are fewer than a converged spectrum needs, to keep the reference
-// runs short; at 256 channels the errors were smaller: j6-5 at 2e-4 moved
-// q_b by 1.8e-5 and P_V by 0.046 %). The bounds are the project's accuracy goal for the
+// runs short; at 256 channels the errors were smaller: j6-5 at 4e-4 moved
+// q_b by 1.8e-5 and P_V by 0.043 %, 193 steps). The bounds are the project's accuracy goal for the
 // reported quantities (issue 13); the tight run stands in for the exact
 // solution (its own error is below 1e-6 in q_b, measured against 1e-7 on
 // J=1-0).

@@ -60,6 +60,11 @@ type state struct {
 	coherent       bool      // src holds density-matrix values (coherence slots valid)
 	eI, eQ, eU, eV []float64 // propagation per channel
 	sat            float64   // max over lines of R/Gamma at line centre
+	// cls holds the rate-equation inversions class by class (class j -
+	// jlo, then line), the source of src's line slots; clsAll says that
+	// every class of src came from it (no density matrix).
+	cls    []float64
+	clsAll bool
 }
 
 // Model is a saturating polarized maser column for one transition and one
@@ -103,11 +108,15 @@ type Model struct {
 	warnings []string
 
 	cur, mid, end *state
-	dense         *state       // checkpoint inside a step (radiation and saturation only)
-	y             [3][]float64 // 3 w.S per channel by q+1, padded
-	yc            [6][]float64 // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
-	r             []float64    // rates of one class
-	dnl           []float64    // inversions of one class
+	mh            midHistory      // K at earlier step starts (extrapolated K_mid)
+	dense         *state          // checkpoint inside a step (radiation and saturation only)
+	y             [3][]float64    // 3 w.S per channel by q+1, padded
+	yAll          []float64       // the three y, one after the other
+	taps          []rateTap       // the rate interpolation of every line (allRates)
+	rcls          []float64       // rates of every class (class j - jlo, then line)
+	yc            [6][]float64    // Re, Im of u1^T J conj(u2) for (-1,0), (-1,+1), (0,+1), padded (density matrix only)
+	r             []float64       // rates of one class
+	dn            classInversions // rate-equation inversions of every class, stored once per populate
 	acc           [numAcc][]float64
 	steps, rej    int
 	clamped       int // interpolated rates below zero (under-resolved spectrum)
@@ -444,13 +453,17 @@ func (m *Model) setupScales() error {
 	}
 
 	m.cur, m.mid, m.end = m.newState(), m.newState(), m.newState()
+	m.mh = newMidHistory(m.n)
 	m.dense = &state{}
 	for i := range m.dense.st {
 		m.dense.st[i] = make([]float64, m.n)
 	}
+	m.yAll = make([]float64, len(m.y)*m.stride)
 	for q := range m.y {
-		m.y[q] = make([]float64, m.stride)
+		m.y[q] = m.yAll[q*m.stride : (q+1)*m.stride]
 	}
+	m.taps = rateTaps(m.lines, m.stride, m.pad)
+	m.rcls = make([]float64, (m.jhi-m.jlo)*len(m.lines))
 	if m.cs != nil {
 		for i := range m.yc {
 			m.yc[i] = make([]float64, m.stride)
@@ -460,7 +473,7 @@ func (m *Model) setupScales() error {
 		m.acc[i] = make([]float64, m.n)
 	}
 	m.r = make([]float64, len(m.lines))
-	m.dnl = make([]float64, len(m.lines))
+	m.dn = classInversions{nl: len(m.lines), jlo: m.jlo, done: make([]bool, m.jhi-m.jlo)}
 
 	// Gain normalization from the unsaturated populations (no radiation:
 	// both population models give the same, coherence-free state).
@@ -493,7 +506,7 @@ func (m *Model) newState() *state {
 	if m.cs != nil {
 		slots += len(m.cs.slots)
 	}
-	s := &state{src: make([]float64, slots*m.stride)}
+	s := &state{src: make([]float64, slots*m.stride), cls: make([]float64, (m.jhi-m.jlo)*len(m.lines))}
 	for i := range s.st {
 		s.st[i] = make([]float64, m.n)
 	}
@@ -609,39 +622,20 @@ func (m *Model) populate(st *state, pos float64) error {
 	// whose largest rate is below classCoherentFrom x g Omega (a far wing
 	// of a narrowed line) is solved by the rate equations, which agree with
 	// it to second order in that ratio; its coherence slots are zero.
-	r, dnl := m.r, m.dnl
+	r := m.r
 	nl := len(m.lines)
 	rFloor := m.classCoherentFrom() * m.gOmega / m.gamma
+	m.allRates()
 	for j := m.jlo; j < m.jhi; j++ {
-		rmax := 0.0
-		for i := range m.lines {
-			l := &m.lines[i]
-			y := m.y[l.q+1]
-			k := j + l.i0 + pad
-			yk := y[k-1 : k+3]
-			rl := l.s * (l.w[0]*yk[0] + l.w[1]*yk[1] + l.w[2]*yk[2] + l.w[3]*yk[3])
-			if rl < 0 { // rounding of a fully polarized beam, or overshoot in a steep wing
-				if rl < -1e-12*l.s*yk[1] {
-					m.clamped++
-				}
-				rl = 0
-			}
-			r[i] = rl
-			if rl > rmax {
-				rmax = rl
-			}
-		}
+		rmax := m.classRates(j, r)
 		if coh && rmax >= rFloor {
 			if err := m.cs.solve(m, st, j, rmax); err != nil {
 				return m.classError(pos, j, st.sat, err)
 			}
 			continue
 		}
-		if err := m.rs.solve(r, m.phi[j], dnl); err != nil {
+		if err := m.rs.solve(r, m.phi[j], m.dn.class(st.cls, j)); err != nil {
 			return m.classError(pos, j, st.sat, err)
-		}
-		for i, d := range dnl {
-			st.src[i*m.stride+pad+j] = d
 		}
 		if coh {
 			for s := range m.cs.slots {
@@ -649,7 +643,8 @@ func (m *Model) populate(st *state, pos float64) error {
 			}
 		}
 	}
-	st.coherent = coh
+	m.dn.store(st.cls, st.src, m.stride, pad)
+	st.coherent, st.clsAll = coh, !coh
 	m.buildK(st)
 	return nil
 }
@@ -657,6 +652,7 @@ func (m *Model) populate(st *state, pos float64) error {
 // classError reports a failed class solve with its position, class and
 // saturation.
 func (m *Model) classError(pos float64, j int, sat float64, err error) error {
+	m.dn.clear() // the populate is abandoned: no class of it is to be stored
 	model := "rate equations"
 	if m.csOn {
 		model = "density matrix"

@@ -129,6 +129,117 @@ func TestRateSolverAgainstFullSystem(t *testing.T) {
 	}
 }
 
+// TestRateSolverWeak checks the iterative path of weakly saturated classes
+// (solveWeak) against the full system for rates from 1e-9 to 1e-2 of the
+// decay rate, either side kept, and that the path was taken. Tolerance
+// 1e-13 relative to the largest population: the iteration stops at a
+// proven error of 1e-15 of it, the full LU solve of these well-conditioned
+// systems is accurate to a few 1e-16.
+func TestRateSolverWeak(t *testing.T) {
+	rng := rand.New(rand.NewPCG(5, 6))
+	for _, name := range []string{"h2o-22", "synthetic-j6-5"} {
+		sp, err := species.Preset(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		tr, err := levels.NewTransition(sp, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		nU, nL := len(tr.Upper.States), len(tr.Lower.States)
+		lines := linesOf(tr)
+		pU, pL := make([]float64, nU), make([]float64, nL)
+		for i := range pU {
+			pU[i] = 0.5 + rng.Float64()
+		}
+		for i := range pL {
+			pL[i] = 0.3 * rng.Float64()
+		}
+		gU, gL := 0.8, 1.3
+		for _, keepUp := range []bool{true, false} {
+			s := newRateSolverSide(nU, nL, lines, gU, gL, pU, pL, keepUp)
+			for _, scale := range []float64{1e-9, 1e-6, 1e-4, 1e-3} {
+				r := make([]float64, len(lines))
+				for l := range r {
+					r[l] = scale * rng.Float64() * lines[l].s
+				}
+				dn := make([]float64, len(lines))
+				phi := 0.7
+				if err := s.solve(r, phi, dn); err != nil {
+					t.Fatal(err)
+				}
+				if !s.weak {
+					t.Errorf("%s keepUpper=%v R~%g: solved by elimination, want iteration", name, keepUp, scale)
+				}
+				up, lo := fullSolve(t, nU, nL, lines, r, gU, gL, pU, pL, phi)
+				top := 0.0
+				for _, v := range append(append([]float64(nil), up...), lo...) {
+					top = math.Max(top, math.Abs(v))
+				}
+				for l, ln := range lines {
+					if d := math.Abs(dn[l] - (up[ln.up] - lo[ln.lo])); d > 1e-13*top {
+						t.Fatalf("%s keepUpper=%v R~%g: inversion of line %d off by %g (largest population %g)", name, keepUp, scale, l, d, top)
+					}
+				}
+			}
+		}
+	}
+}
+
+// TestChunkSchur checks the grouping of eliminated states for the Schur
+// updates: consecutive non-empty states only, at most schurRank, every
+// state's kept range inside its chunk's, and no chunk wider than a stored
+// row (a wider one would write past its row of the band).
+func TestChunkSchur(t *testing.T) {
+	k0 := []int{0, 0, 1, 5, 0, 5, 5, 5, 5, 5}
+	kw := []int{4, 4, 4, 3, 0, 3, 3, 3, 3, 3}
+	got := chunkSchur(k0, kw, 4)
+	want := []schurChunk{{0, 2, 0, 4}, {2, 1, 1, 4}, {3, 1, 5, 3}, {5, 4, 5, 3}, {9, 1, 5, 3}}
+	if len(got) != len(want) {
+		t.Fatalf("chunks %v, want %v", got, want)
+	}
+	for i := range want {
+		if got[i] != want[i] {
+			t.Errorf("chunk %d: %v, want %v", i, got[i], want[i])
+		}
+	}
+	// The solvers of the hyperfine presets, both sides kept.
+	for _, name := range []string{"h2o-22", "synthetic-j6-5"} {
+		sp, err := species.Preset(name)
+		if err != nil {
+			t.Fatal(err)
+		}
+		tr, err := levels.NewTransition(sp, 1)
+		if err != nil {
+			t.Fatal(err)
+		}
+		nU, nL := len(tr.Upper.States), len(tr.Lower.States)
+		pU, pL := make([]float64, nU), make([]float64, nL)
+		for _, keepUp := range []bool{true, false} {
+			rs := newRateSolverSide(nU, nL, linesOf(tr), 1, 1, pU, pL, keepUp)
+			maxW := rs.nK
+			if rs.band {
+				maxW = rs.kd + 1
+			}
+			seen := 0
+			for _, c := range rs.chunks {
+				if c.m < 1 || c.m > schurRank || c.w > maxW {
+					t.Errorf("%s keepUpper=%v: chunk %v (row width %d)", name, keepUp, c, maxW)
+				}
+				for e := c.e0; e < c.e0+c.m; e++ {
+					if rs.k0[e] < c.k0 || rs.k0[e]+rs.kw[e] > c.k0+c.w {
+						t.Errorf("%s: state %d range [%d,%d) outside chunk %v", name, e, rs.k0[e], rs.k0[e]+rs.kw[e], c)
+					}
+					seen++
+				}
+			}
+			if seen != rs.nE-len(rs.empty) {
+				t.Errorf("%s keepUpper=%v: %d states in chunks, want %d", name, keepUp, seen, rs.nE-len(rs.empty))
+			}
+		}
+	}
+}
+
 // TestPumpWeights checks the pump normalizations of doc.go: mean weight 1
 // over a level (total pump rate fixed), |m_J| = J favoured for positive
 // alignment, weights non-negative at |Alignment| = 1, F weights relative.

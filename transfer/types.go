@@ -129,7 +129,7 @@ type Params struct {
 	Gain                 float64 // or stop at this total unsaturated line-centre gain (used when > 0)
 	CheckpointsPerDecade int     // default 8
 	FirstCheckpoint      float64 // lowest saturation recorded, default 1e-3
-	Tolerance            float64 // relative local error per step, default 2e-4 (DefaultTolerance)
+	Tolerance            float64 // relative local error per step, default 4e-4 (DefaultTolerance)
 
 	// Population selects the population model (default Auto).
 	Population PopulationModel
