@@ -137,14 +137,11 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 		}
 	} else {
 		// No per-model figures, but the study figures still need the
-		// sign of P_V of every model: read the spectra for it.
-		for _, m := range models {
-			if err := ctx.Err(); err != nil {
-				return out, err
-			}
-			if err := plotSpectra(dir, m, nil); err != nil {
-				return out, err
-			}
+		// sign of P_V of every model: read the spectra for it, on the
+		// pool (each job touches only its own model; a serial pass here
+		// would cap the speed-up of the whole figure phase).
+		if err := d.each(len(models), func(i int) error { return plotSpectra(dir, models[i], nil) }); err != nil {
+			return out, err
 		}
 		if opt.Note != nil {
 			opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
@@ -168,7 +165,7 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 	if err != nil {
 		return out, err
 	}
-	p, err := d.run(len(jobs), len(jobs), func(i int, save saver) error { return save(jobs[i].fig, jobs[i].name) })
+	p, err := d.runFormats(jobs)
 	return append(out, p...), err
 }
 
@@ -249,6 +246,140 @@ func (d *drawer) run(nfig, njobs int, job func(i int, save saver) error) ([]stri
 		}
 	}
 	return out, first
+}
+
+// each calls job(i) for i in 0..n-1 on the pool and returns the error of
+// the lowest failing i (or ctx.Err()), as a serial loop would.
+func (d *drawer) each(n int, job func(i int) error) error {
+	errs := make([]error, n)
+	var next atomic.Int64
+	var failed atomic.Bool
+	var wg sync.WaitGroup
+	for w := 0; w < min(d.workers, n); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				i := int(next.Add(1) - 1)
+				if i >= n || failed.Load() {
+					return
+				}
+				if errs[i] = d.ctx.Err(); errs[i] == nil {
+					errs[i] = job(i)
+				}
+				if errs[i] != nil {
+					failed.Store(true)
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// runFormats draws the study figures with one job per figure and format,
+// so that two workers share even a handful of figures evenly (7 figures
+// in two formats are 14 jobs of about equal cost). Each job draws its own
+// shallow copy of the figure (Save sets DataAreas and Size on it; the
+// panels are only read), and a figure counts as drawn, for the progress
+// line and opt.saved, when its last format is written. Files, their order
+// and the notes are those of a serial draw.
+func (d *drawer) runFormats(jobs []figJob) ([]string, error) {
+	nf := len(d.formats)
+	for _, j := range jobs {
+		if !d.opt.Titles {
+			j.fig.Title = ""
+		}
+	}
+	res := make([]fileResult, len(jobs)*nf)
+	left := make([]int, len(jobs)) // formats still to draw, guarded by d.mu
+	for k := range left {
+		left[k] = nf
+	}
+	d.done = 0
+	nfig := len(jobs)
+	var next atomic.Int64
+	var failed atomic.Bool // a serial draw stops at the first error
+	var wg sync.WaitGroup
+	for w := 0; w < min(d.workers, len(res)); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				i := int(next.Add(1) - 1)
+				if i >= len(res) || failed.Load() {
+					return
+				}
+				k, f := i/nf, i%nf
+				r := &res[i]
+				if r.err = d.ctx.Err(); r.err == nil {
+					r.fig = *jobs[k].fig
+					r.paths, r.err = r.fig.Save(filepath.Join(d.pd, jobs[k].name), d.formats[f:f+1])
+				}
+				if r.err != nil && !errors.Is(r.err, figures.ErrNoData) {
+					failed.Store(true)
+				}
+				d.mu.Lock()
+				if left[k]--; left[k] == 0 {
+					d.figureDone(nfig, jobs[k].name, res[k*nf:(k+1)*nf])
+				}
+				d.mu.Unlock()
+			}
+		}()
+	}
+	wg.Wait()
+	d.progressEnd(nfig)
+	var out []string
+	for k, j := range jobs {
+		for f := 0; f < nf; f++ {
+			r := res[k*nf+f]
+			if errors.Is(r.err, figures.ErrNoData) {
+				if f == 0 && d.opt.Note != nil {
+					d.opt.Note(fmt.Sprintf("figure %s skipped: %v", j.name, r.err))
+				}
+				continue
+			}
+			if r.err != nil {
+				return out, r.err
+			}
+			out = append(out, r.paths...)
+		}
+	}
+	return out, nil
+}
+
+// fileResult is what one study-figure job (a figure in one format) wrote.
+type fileResult struct {
+	fig   figures.Stack // the job's copy, as drawn
+	paths []string
+	err   error
+}
+
+// figureDone counts a study figure whose formats are all done and shows
+// it to opt.saved (the first format's copy, every path in format order)
+// when all of them were written. d.mu is held.
+func (d *drawer) figureDone(nfig int, name string, files []fileResult) {
+	var paths []string
+	for _, r := range files {
+		if r.err != nil {
+			if errors.Is(r.err, figures.ErrNoData) {
+				d.done++
+				d.progress(nfig, name)
+			}
+			return
+		}
+		paths = append(paths, r.paths...)
+	}
+	if d.opt.saved != nil {
+		d.opt.saved(&files[0].fig, paths)
+	}
+	d.done++
+	d.progress(nfig, name)
 }
 
 // save draws one figure of a job.
