@@ -28,25 +28,36 @@ plots = false
 // sideBySide runs f(1) and f(2) alternately (which goes first alternates
 // too), b.N times each, and reports the milliseconds of each per call:
 // on shared, noisy cores only a ratio measured this way is firm.
+//
+// It also reports the process CPU time of each (user + system): on a
+// machine shared with other work the wall-time ratio measures the
+// neighbours as much as the code, while cpu-2/cpu-1 near 1 shows that
+// the parallel run does no extra work, and what remains of the
+// efficiency is serial sections and the last model's tail.
 func sideBySide(b *testing.B, f func(workers, i int)) (t1, t2 float64) {
-	var d1, d2 time.Duration
-	run := func(w, i int, d *time.Duration) {
+	var d1, d2, c1, c2 time.Duration
+	run := func(w, i int, d, c *time.Duration) {
+		u0 := cpuTime()
 		t0 := time.Now()
 		f(w, i)
 		*d += time.Since(t0)
+		*c += cpuTime() - u0
 	}
 	for i := 0; i < b.N; i++ {
 		if i%2 == 0 {
-			run(1, i, &d1)
-			run(2, i, &d2)
+			run(1, i, &d1, &c1)
+			run(2, i, &d2, &c2)
 		} else {
-			run(2, i, &d2)
-			run(1, i, &d1)
+			run(2, i, &d2, &c2)
+			run(1, i, &d1, &c1)
 		}
 	}
-	t1, t2 = d1.Seconds()*1e3/float64(b.N), d2.Seconds()*1e3/float64(b.N)
+	n := float64(b.N)
+	t1, t2 = d1.Seconds()*1e3/n, d2.Seconds()*1e3/n
 	b.ReportMetric(t1, "ms-1worker")
 	b.ReportMetric(t2, "ms-2workers")
+	b.ReportMetric(c1.Seconds()*1e3/n, "cpu-ms-1worker")
+	b.ReportMetric(c2.Seconds()*1e3/n, "cpu-ms-2workers")
 	return t1, t2
 }
 
