@@ -122,7 +122,8 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 		d.workers = runtime.NumCPU()
 	}
 	var out []string
-	if len(models) <= MaxModelFigures || opt.Models {
+	perModel := len(models) <= MaxModelFigures || opt.Models
+	if perModel {
 		// Per-model figures first: they also find the sign of P_V that
 		// the study figures draw (summaryModel.pvSign). Each job touches
 		// only its own model.
@@ -135,38 +136,60 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 		if err != nil {
 			return out, err
 		}
-	} else {
-		// No per-model figures, but the study figures still need the
-		// sign of P_V of every model: read the spectra for it, on the
-		// pool (each job touches only its own model; a serial pass here
-		// would cap the speed-up of the whole figure phase).
-		if err := d.each(len(models), func(i int) error { return plotSpectra(dir, models[i], nil) }); err != nil {
-			return out, err
-		}
-		if opt.Note != nil {
-			opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
+	}
+	// The study figures are cheap to build and costly to draw: built in
+	// order, drawn on the pool, one job per figure and format. The theta
+	// figures need no sign of P_V, so they are drawn while the pool reads
+	// the signs from the spectra (when no per-model figures did): that
+	// pass is then hidden behind drawing instead of standing before it.
+	var theta, sat []figJob
+	collect := func(jobs *[]figJob) saver {
+		return func(fig *figures.Stack, name string) error {
+			*jobs = append(*jobs, figJob{fig, name})
+			return nil
 		}
 	}
-	// The study figures are cheap to build and costly to draw: build them
-	// all in order, then draw them on the pool.
-	var jobs []figJob
-	collect := func(fig *figures.Stack, name string) error {
-		jobs = append(jobs, figJob{fig, name})
-		return nil
+	if err := plotTheta(models, random, collect(&theta)); err != nil {
+		return out, err
+	}
+	fr := d.newFigRun()
+	var signs func(i int) error
+	nsign := 0
+	if !perModel {
+		// Each sign job touches only its own model (its pvSign, which
+		// the theta figures do not read).
+		nsign = len(models)
+		signs = func(i int) error { return plotSpectra(dir, models[i], nil) }
+	}
+	thetaFiles, thetaNotes, err := fr.draw(theta, nsign, signs, true)
+	if err != nil {
+		return out, err
+	}
+	if !perModel && opt.Note != nil {
+		opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
 	}
 	if random {
-		err = plotSpread(models, collect)
+		err = plotSpread(models, collect(&sat))
 	} else {
-		err = plotSaturation(models, collect)
-	}
-	if err == nil {
-		err = plotTheta(models, random, collect)
+		err = plotSaturation(models, collect(&sat))
 	}
 	if err != nil {
 		return out, err
 	}
-	p, err := d.runFormats(jobs)
-	return append(out, p...), err
+	fr.total(len(theta) + len(sat))
+	satFiles, satNotes, err := fr.draw(sat, 0, nil, false)
+	d.progressEnd(fr.done)
+	// Files and notes in the order of a serial draw: saturation, then theta.
+	for _, n := range append(satNotes, thetaNotes...) {
+		if opt.Note != nil {
+			opt.Note(n)
+		}
+	}
+	out = append(out, satFiles...)
+	if err != nil {
+		return out, err
+	}
+	return append(out, thetaFiles...), nil
 }
 
 // figJob is a study figure waiting to be drawn.
@@ -248,72 +271,87 @@ func (d *drawer) run(nfig, njobs int, job func(i int, save saver) error) ([]stri
 	return out, first
 }
 
-// each calls job(i) for i in 0..n-1 on the pool and returns the error of
-// the lowest failing i (or ctx.Err()), as a serial loop would.
-func (d *drawer) each(n int, job func(i int) error) error {
-	errs := make([]error, n)
-	var next atomic.Int64
-	var failed atomic.Bool
-	var wg sync.WaitGroup
-	for w := 0; w < min(d.workers, n); w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				i := int(next.Add(1) - 1)
-				if i >= n || failed.Load() {
-					return
-				}
-				if errs[i] = d.ctx.Err(); errs[i] == nil {
-					errs[i] = job(i)
-				}
-				if errs[i] != nil {
-					failed.Store(true)
-				}
-			}
-		}()
-	}
-	wg.Wait()
-	for _, err := range errs {
-		if err != nil {
-			return err
-		}
-	}
-	return nil
+// figRun draws study figures with one job per figure and format, so that
+// the workers share a handful of figures as evenly as the formats allow
+// (an SVG costs a few per cent of a PNG). Each job draws its own shallow
+// copy of the figure (Save sets DataAreas and Size on it; the panels are
+// only read), and a figure counts as drawn, for the progress line and
+// opt.saved, when its last format is written. Progress lines of a draw
+// made before the total is known (total) are held until it is.
+type figRun struct {
+	d      *drawer
+	nf     int
+	n      int      // total figures, 0 while unknown
+	done   int      // figures drawn; guarded by d.mu
+	held   []string // names of figures drawn before n was known
+	holdOn bool
 }
 
-// runFormats draws the study figures with one job per figure and format,
-// so that two workers share even a handful of figures evenly (7 figures
-// in two formats are 14 jobs of about equal cost). Each job draws its own
-// shallow copy of the figure (Save sets DataAreas and Size on it; the
-// panels are only read), and a figure counts as drawn, for the progress
-// line and opt.saved, when its last format is written. Files, their order
-// and the notes are those of a serial draw.
-func (d *drawer) runFormats(jobs []figJob) ([]string, error) {
-	nf := len(d.formats)
+func (d *drawer) newFigRun() *figRun {
+	d.done = 0
+	return &figRun{d: d, nf: len(d.formats)}
+}
+
+// total sets the number of figures and prints the progress lines held.
+func (fr *figRun) total(n int) {
+	fr.n = n
+	fr.d.mu.Lock()
+	defer fr.d.mu.Unlock()
+	for i, name := range fr.held {
+		fr.d.done = i + 1
+		fr.d.progress(n, name)
+	}
+	fr.held = nil
+}
+
+// fileResult is what one study-figure job (a figure in one format) wrote.
+type fileResult struct {
+	fig   figures.Stack // the job's copy, as drawn
+	paths []string
+	err   error
+}
+
+// draw draws jobs, and runs extra(0..nextra-1) on the same pool after
+// the figure jobs are handed out; hold keeps the progress lines until
+// total. It returns the files in job and format order, the notes of
+// figures without data, and the first error in job order (figures, then
+// extra jobs), as a serial draw would.
+func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold bool) ([]string, []string, error) {
+	d, nf := fr.d, fr.nf
+	fr.holdOn = hold
 	for _, j := range jobs {
 		if !d.opt.Titles {
 			j.fig.Title = ""
 		}
 	}
-	res := make([]fileResult, len(jobs)*nf)
+	nfile := len(jobs) * nf
+	res := make([]fileResult, nfile)
+	extraErr := make([]error, nextra)
 	left := make([]int, len(jobs)) // formats still to draw, guarded by d.mu
 	for k := range left {
 		left[k] = nf
 	}
-	d.done = 0
-	nfig := len(jobs)
 	var next atomic.Int64
 	var failed atomic.Bool // a serial draw stops at the first error
 	var wg sync.WaitGroup
-	for w := 0; w < min(d.workers, len(res)); w++ {
+	for w := 0; w < min(d.workers, nfile+nextra); w++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
 			for {
 				i := int(next.Add(1) - 1)
-				if i >= len(res) || failed.Load() {
+				if i >= nfile+nextra || failed.Load() {
 					return
+				}
+				if i >= nfile {
+					e := &extraErr[i-nfile]
+					if *e = d.ctx.Err(); *e == nil {
+						*e = extra(i - nfile)
+					}
+					if *e != nil {
+						failed.Store(true)
+					}
+					continue
 				}
 				k, f := i/nf, i%nf
 				r := &res[i]
@@ -326,60 +364,64 @@ func (d *drawer) runFormats(jobs []figJob) ([]string, error) {
 				}
 				d.mu.Lock()
 				if left[k]--; left[k] == 0 {
-					d.figureDone(nfig, jobs[k].name, res[k*nf:(k+1)*nf])
+					fr.figureDone(jobs[k].name, res[k*nf:(k+1)*nf])
 				}
 				d.mu.Unlock()
 			}
 		}()
 	}
 	wg.Wait()
-	d.progressEnd(nfig)
-	var out []string
+	var out, notes []string
 	for k, j := range jobs {
 		for f := 0; f < nf; f++ {
 			r := res[k*nf+f]
 			if errors.Is(r.err, figures.ErrNoData) {
-				if f == 0 && d.opt.Note != nil {
-					d.opt.Note(fmt.Sprintf("figure %s skipped: %v", j.name, r.err))
+				if f == 0 {
+					notes = append(notes, fmt.Sprintf("figure %s skipped: %v", j.name, r.err))
 				}
 				continue
 			}
 			if r.err != nil {
-				return out, r.err
+				return out, notes, r.err
 			}
 			out = append(out, r.paths...)
 		}
 	}
-	return out, nil
-}
-
-// fileResult is what one study-figure job (a figure in one format) wrote.
-type fileResult struct {
-	fig   figures.Stack // the job's copy, as drawn
-	paths []string
-	err   error
+	for _, err := range extraErr {
+		if err != nil {
+			return out, notes, err
+		}
+	}
+	return out, notes, nil
 }
 
 // figureDone counts a study figure whose formats are all done and shows
 // it to opt.saved (the first format's copy, every path in format order)
 // when all of them were written. d.mu is held.
-func (d *drawer) figureDone(nfig int, name string, files []fileResult) {
+func (fr *figRun) figureDone(name string, files []fileResult) {
+	d := fr.d
 	var paths []string
+	ok := true
 	for _, r := range files {
 		if r.err != nil {
-			if errors.Is(r.err, figures.ErrNoData) {
-				d.done++
-				d.progress(nfig, name)
+			ok = false
+			if !errors.Is(r.err, figures.ErrNoData) {
+				return
 			}
-			return
+			break
 		}
 		paths = append(paths, r.paths...)
 	}
-	if d.opt.saved != nil {
+	if ok && d.opt.saved != nil {
 		d.opt.saved(&files[0].fig, paths)
 	}
-	d.done++
-	d.progress(nfig, name)
+	fr.done++
+	if fr.holdOn {
+		fr.held = append(fr.held, name)
+		return
+	}
+	d.done = fr.done
+	d.progress(fr.n, name)
 }
 
 // save draws one figure of a job.
