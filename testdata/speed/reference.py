@@ -30,8 +30,11 @@ saturation units, path s in unsaturated line-centre gain):
   kappa sum_m 3 S w_X^m (n_a - n_b) on the channels, kappa such that the
   unsaturated e_I (n_a = lambda_a, n_b = 0) peaks at 1 over the channels.
 - Seed: unpolarized, I0 = T_seed dOmega / (4 pi h nu0 Gamma / (A k)).
-- Saturation: the largest R_ab over the lines for the class u = 0 (the
-  spectrum read by the kernel at v_m). Checkpoints at first x 10^(i/per_decade)
+- Saturation: the largest R_ab over the lines for the class u = 0, with the
+  channel spectrum read at v_m by linear interpolation. This one convention
+  was taken from the program's source (its documentation says only "at the
+  profile centre"); read through the kernel instead, the peak intensity at
+  a given saturation comes out 0.4 % higher. Checkpoints at first x 10^(i/per_decade)
   up to the target; the state there is found by event location on the solver's
   dense output.
 - Integration: scipy solve_ivp (DOP853) on (ln I, Q/I, U/I, V/I) per channel, so
