@@ -27,9 +27,24 @@ func writeFileAtomic(path string, data []byte) error {
 func WriteFile(path string, data []byte) error { return writeFileAtomic(path, data) }
 
 // writeAtomic streams what fill writes into a temporary file in the
-// directory of path and renames it into place, so large tables never sit
-// whole in memory and a crash leaves no partial file.
+// directory of path, syncs it and renames it into place, so large tables
+// never sit whole in memory and a crash leaves no partial file.
 func writeAtomic(path string, fill func(io.Writer) error) error {
+	return writeTemp(path, fill, true)
+}
+
+// writeChecked is writeAtomic without the sync, for the per-model files
+// (spectra/, models/) that --resume verifies before trusting them (row
+// count, and the spectrum's SHA-256 recorded in the models/ file): a
+// killed process still leaves no partial file (the rename is atomic), and
+// a file emptied or torn by a crash of the whole machine fails the check
+// and its model is computed again. Syncing them cost two disk flushes per
+// model, up to tens of milliseconds each on a busy disk.
+func writeChecked(path string, fill func(io.Writer) error) error {
+	return writeTemp(path, fill, false)
+}
+
+func writeTemp(path string, fill func(io.Writer) error, sync bool) error {
 	dir, base := filepath.Split(path)
 	if dir == "" {
 		dir = "."
@@ -40,7 +55,7 @@ func writeAtomic(path string, fill func(io.Writer) error) error {
 	}
 	tmp := f.Name()
 	err = fill(f)
-	if err == nil {
+	if err == nil && sync {
 		err = f.Sync()
 	}
 	if cerr := f.Close(); err == nil {

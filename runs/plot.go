@@ -122,7 +122,8 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 		d.workers = runtime.NumCPU()
 	}
 	var out []string
-	if len(models) <= MaxModelFigures || opt.Models {
+	perModel := len(models) <= MaxModelFigures || opt.Models
+	if perModel {
 		// Per-model figures first: they also find the sign of P_V that
 		// the study figures draw (summaryModel.pvSign). Each job touches
 		// only its own model.
@@ -135,41 +136,60 @@ func PlotContext(ctx context.Context, dir string, opt PlotOptions) ([]string, er
 		if err != nil {
 			return out, err
 		}
-	} else {
-		// No per-model figures, but the study figures still need the
-		// sign of P_V of every model: read the spectra for it.
-		for _, m := range models {
-			if err := ctx.Err(); err != nil {
-				return out, err
-			}
-			if err := plotSpectra(dir, m, nil); err != nil {
-				return out, err
-			}
-		}
-		if opt.Note != nil {
-			opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
+	}
+	// The study figures are cheap to build and costly to draw: built in
+	// order, drawn on the pool, one job per figure and format. The theta
+	// figures need no sign of P_V, so they are drawn while the pool reads
+	// the signs from the spectra (when no per-model figures did): that
+	// pass is then hidden behind drawing instead of standing before it.
+	var theta, sat []figJob
+	collect := func(jobs *[]figJob) saver {
+		return func(fig *figures.Stack, name string) error {
+			*jobs = append(*jobs, figJob{fig, name})
+			return nil
 		}
 	}
-	// The study figures are cheap to build and costly to draw: build them
-	// all in order, then draw them on the pool.
-	var jobs []figJob
-	collect := func(fig *figures.Stack, name string) error {
-		jobs = append(jobs, figJob{fig, name})
-		return nil
+	if err := plotTheta(models, random, collect(&theta)); err != nil {
+		return out, err
+	}
+	fr := d.newFigRun()
+	var signs func(i int) error
+	nsign := 0
+	if !perModel {
+		// Each sign job touches only its own model (its pvSign, which
+		// the theta figures do not read).
+		nsign = len(models)
+		signs = func(i int) error { return plotSpectra(dir, models[i], nil) }
+	}
+	thetaFiles, thetaNotes, err := fr.draw(theta, nsign, signs, true)
+	if err != nil {
+		return out, err
+	}
+	if !perModel && opt.Note != nil {
+		opt.Note(fmt.Sprintf("per-model figures skipped for %d models (drawn for at most %d; maserpol plot --models draws them)", len(models), MaxModelFigures))
 	}
 	if random {
-		err = plotSpread(models, collect)
+		err = plotSpread(models, collect(&sat))
 	} else {
-		err = plotSaturation(models, collect)
-	}
-	if err == nil {
-		err = plotTheta(models, random, collect)
+		err = plotSaturation(models, collect(&sat))
 	}
 	if err != nil {
 		return out, err
 	}
-	p, err := d.run(len(jobs), len(jobs), func(i int, save saver) error { return save(jobs[i].fig, jobs[i].name) })
-	return append(out, p...), err
+	fr.total(len(theta) + len(sat))
+	satFiles, satNotes, err := fr.draw(sat, 0, nil, false)
+	d.progressEnd(fr.done)
+	// Files and notes in the order of a serial draw: saturation, then theta.
+	for _, n := range append(satNotes, thetaNotes...) {
+		if opt.Note != nil {
+			opt.Note(n)
+		}
+	}
+	out = append(out, satFiles...)
+	if err != nil {
+		return out, err
+	}
+	return append(out, thetaFiles...), nil
 }
 
 // figJob is a study figure waiting to be drawn.
@@ -249,6 +269,159 @@ func (d *drawer) run(nfig, njobs int, job func(i int, save saver) error) ([]stri
 		}
 	}
 	return out, first
+}
+
+// figRun draws study figures with one job per figure and format, so that
+// the workers share a handful of figures as evenly as the formats allow
+// (an SVG costs a few per cent of a PNG). Each job draws its own shallow
+// copy of the figure (Save sets DataAreas and Size on it; the panels are
+// only read), and a figure counts as drawn, for the progress line and
+// opt.saved, when its last format is written. Progress lines of a draw
+// made before the total is known (total) are held until it is.
+type figRun struct {
+	d      *drawer
+	nf     int
+	n      int      // total figures, 0 while unknown
+	done   int      // figures drawn; guarded by d.mu
+	held   []string // names of figures drawn before n was known
+	holdOn bool
+}
+
+func (d *drawer) newFigRun() *figRun {
+	d.done = 0
+	return &figRun{d: d, nf: len(d.formats)}
+}
+
+// total sets the number of figures and prints the progress lines held.
+func (fr *figRun) total(n int) {
+	fr.n = n
+	fr.d.mu.Lock()
+	defer fr.d.mu.Unlock()
+	for i, name := range fr.held {
+		fr.d.done = i + 1
+		fr.d.progress(n, name)
+	}
+	fr.held = nil
+}
+
+// fileResult is what one study-figure job (a figure in one format) wrote.
+type fileResult struct {
+	fig   figures.Stack // the job's copy, as drawn
+	paths []string
+	err   error
+}
+
+// draw draws jobs, and runs extra(0..nextra-1) on the same pool after
+// the figure jobs are handed out; hold keeps the progress lines until
+// total. It returns the files in job and format order, the notes of
+// figures without data, and the first error in job order (figures, then
+// extra jobs), as a serial draw would.
+func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold bool) ([]string, []string, error) {
+	d, nf := fr.d, fr.nf
+	fr.holdOn = hold
+	for _, j := range jobs {
+		if !d.opt.Titles {
+			j.fig.Title = ""
+		}
+	}
+	nfile := len(jobs) * nf
+	res := make([]fileResult, nfile)
+	extraErr := make([]error, nextra)
+	left := make([]int, len(jobs)) // formats still to draw, guarded by d.mu
+	for k := range left {
+		left[k] = nf
+	}
+	var next atomic.Int64
+	var failed atomic.Bool // a serial draw stops at the first error
+	var wg sync.WaitGroup
+	for w := 0; w < min(d.workers, nfile+nextra); w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for {
+				i := int(next.Add(1) - 1)
+				if i >= nfile+nextra || failed.Load() {
+					return
+				}
+				if i >= nfile {
+					e := &extraErr[i-nfile]
+					if *e = d.ctx.Err(); *e == nil {
+						*e = extra(i - nfile)
+					}
+					if *e != nil {
+						failed.Store(true)
+					}
+					continue
+				}
+				k, f := i/nf, i%nf
+				r := &res[i]
+				if r.err = d.ctx.Err(); r.err == nil {
+					r.fig = *jobs[k].fig
+					r.paths, r.err = r.fig.Save(filepath.Join(d.pd, jobs[k].name), d.formats[f:f+1])
+				}
+				if r.err != nil && !errors.Is(r.err, figures.ErrNoData) {
+					failed.Store(true)
+				}
+				d.mu.Lock()
+				if left[k]--; left[k] == 0 {
+					fr.figureDone(jobs[k].name, res[k*nf:(k+1)*nf])
+				}
+				d.mu.Unlock()
+			}
+		}()
+	}
+	wg.Wait()
+	var out, notes []string
+	for k, j := range jobs {
+		for f := 0; f < nf; f++ {
+			r := res[k*nf+f]
+			if errors.Is(r.err, figures.ErrNoData) {
+				if f == 0 {
+					notes = append(notes, fmt.Sprintf("figure %s skipped: %v", j.name, r.err))
+				}
+				continue
+			}
+			if r.err != nil {
+				return out, notes, r.err
+			}
+			out = append(out, r.paths...)
+		}
+	}
+	for _, err := range extraErr {
+		if err != nil {
+			return out, notes, err
+		}
+	}
+	return out, notes, nil
+}
+
+// figureDone counts a study figure whose formats are all done and shows
+// it to opt.saved (the first format's copy, every path in format order)
+// when all of them were written. d.mu is held.
+func (fr *figRun) figureDone(name string, files []fileResult) {
+	d := fr.d
+	var paths []string
+	ok := true
+	for _, r := range files {
+		if r.err != nil {
+			ok = false
+			if !errors.Is(r.err, figures.ErrNoData) {
+				return
+			}
+			break
+		}
+		paths = append(paths, r.paths...)
+	}
+	if ok && d.opt.saved != nil {
+		d.opt.saved(&files[0].fig, paths)
+	}
+	fr.done++
+	if fr.holdOn {
+		fr.held = append(fr.held, name)
+		return
+	}
+	d.done = fr.done
+	d.progress(fr.n, name)
 }
 
 // save draws one figure of a job.

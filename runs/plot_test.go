@@ -396,52 +396,72 @@ func TestPerModelFiguresOnlyForSmallStudies(t *testing.T) {
 // same files, byte for byte, in the same order, with the same notes, as
 // drawn on one; the progress counts every figure. Run with -race, it also
 // checks that gonum/plot and the Scripts text handler draw concurrently
-// without data races (shared font cache).
+// without data races (shared font cache), that the study figures' one job
+// per format draws its own copy, and, for a study without per-model
+// figures, that the pooled pass reading the sign of P_V from the spectra
+// touches only its own model.
 func TestParallelFiguresMatchSerial(t *testing.T) {
-	dir := t.TempDir()
-	execute(t, study(t, cfg2x3), dir, Options{})
-	draw := func(workers int) (files []string, data map[string][]byte, notes []string, progress string) {
-		var buf strings.Builder
-		figs, err := Plot(dir, PlotOptions{Formats: []string{"png", "svg"}, Workers: workers, Progress: &buf,
-			Note: func(n string) { notes = append(notes, n) }})
-		if err != nil {
-			t.Fatal(err)
-		}
-		data = map[string][]byte{}
-		for _, f := range figs {
-			b, err := os.ReadFile(f)
-			if err != nil {
-				t.Fatal(err)
+	over16 := strings.NewReplacer(`["10 mG", "30 mG"]`, `["10 mG", "30 mG", "100 mG"]`, `chi = "10 deg"`, `chi = ["10 deg", "40 deg"]`).Replace(cfg2x3)
+	cases := []struct {
+		name     string
+		cfg      string
+		files    int      // figures x formats
+		progress []string // progress lines that must appear
+	}{
+		// 6 models x (spectra + evolution) + saturation + theta.
+		{"per-model figures", cfg2x3, 2 * 14, []string{"maserpol: figures [12/12] ", "maserpol: figures [2/2] "}},
+		// 18 models: saturation split by B (three figures) + theta.
+		{"study figures only", over16, 2 * 4, []string{"maserpol: figures [4/4] "}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			dir := t.TempDir()
+			execute(t, study(t, c.cfg), dir, Options{})
+			draw := func(workers int) (files []string, data map[string][]byte, notes []string, progress string) {
+				var buf strings.Builder
+				figs, err := Plot(dir, PlotOptions{Formats: []string{"png", "svg"}, Workers: workers, Progress: &buf,
+					Note: func(n string) { notes = append(notes, n) }})
+				if err != nil {
+					t.Fatal(err)
+				}
+				data = map[string][]byte{}
+				for _, f := range figs {
+					b, err := os.ReadFile(f)
+					if err != nil {
+						t.Fatal(err)
+					}
+					data[f] = b
+				}
+				ents, _ := os.ReadDir(filepath.Join(dir, "plots"))
+				if len(ents) != len(figs) {
+					t.Errorf("workers=%d: %d files in plots/, %d returned", workers, len(ents), len(figs))
+				}
+				return figs, data, notes, buf.String()
 			}
-			data[f] = b
-		}
-		ents, _ := os.ReadDir(filepath.Join(dir, "plots"))
-		if len(ents) != len(figs) {
-			t.Errorf("workers=%d: %d files in plots/, %d returned", workers, len(ents), len(figs))
-		}
-		return figs, data, notes, buf.String()
-	}
-	f1, d1, n1, p1 := draw(1)
-	f4, d4, n4, p4 := draw(4)
-	if strings.Join(f1, "\n") != strings.Join(f4, "\n") {
-		t.Fatalf("files differ:\n%v\n%v", f1, f4)
-	}
-	if strings.Join(n1, "\n") != strings.Join(n4, "\n") {
-		t.Errorf("notes differ: %q, %q", n1, n4)
-	}
-	for _, f := range f1 {
-		if !bytes.Equal(d1[f], d4[f]) {
-			t.Errorf("%s differs between 1 and 4 workers", filepath.Base(f))
-		}
-	}
-	// 6 models x (spectra + evolution) + saturation + theta, two formats.
-	if len(f1) != 2*14 {
-		t.Errorf("%d files, want 28", len(f1))
-	}
-	for _, p := range []string{p1, p4} {
-		if !strings.Contains(p, "maserpol: figures [12/12] ") || !strings.Contains(p, "maserpol: figures [2/2] ") {
-			t.Errorf("progress lines missing:\n%s", p)
-		}
+			f1, d1, n1, p1 := draw(1)
+			f4, d4, n4, p4 := draw(4)
+			if strings.Join(f1, "\n") != strings.Join(f4, "\n") {
+				t.Fatalf("files differ:\n%v\n%v", f1, f4)
+			}
+			if strings.Join(n1, "\n") != strings.Join(n4, "\n") {
+				t.Errorf("notes differ: %q, %q", n1, n4)
+			}
+			for _, f := range f1 {
+				if !bytes.Equal(d1[f], d4[f]) {
+					t.Errorf("%s differs between 1 and 4 workers", filepath.Base(f))
+				}
+			}
+			if len(f1) != c.files {
+				t.Errorf("%d files, want %d: %v", len(f1), c.files, f1)
+			}
+			for _, p := range []string{p1, p4} {
+				for _, want := range c.progress {
+					if !strings.Contains(p, want) {
+						t.Errorf("progress line %q missing:\n%s", want, p)
+					}
+				}
+			}
+		})
 	}
 }
 

@@ -360,7 +360,7 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 	var sum string
 	if err == nil {
 		h := sha256.New()
-		if e := writeAtomic(filepath.Join(dir, "spectra", m.Name+".ecsv"), func(w io.Writer) error {
+		if e := writeChecked(filepath.Join(dir, "spectra", m.Name+".ecsv"), func(w io.Writer) error {
 			h.Reset() // the checksum is of what ends up in the file
 			return writeSpectrum(io.MultiWriter(w, h), st, m, tr)
 		}); e != nil {
@@ -372,7 +372,7 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 		}
 		sum = hex.EncodeToString(h.Sum(nil))
 	}
-	if e := writeAtomic(filepath.Join(dir, "models", m.Name+".ecsv"), func(w io.Writer) error {
+	if e := writeChecked(filepath.Join(dir, "models", m.Name+".ecsv"), func(w io.Writer) error {
 		return writeModelTable(w, st, l, m, tr, sum, err)
 	}); e != nil {
 		return nil, &writeError{e}

@@ -266,15 +266,29 @@ func writeSpectrum(buf io.Writer, st *config.Study, m *config.Model, tr *transfe
 		meta = append(meta, ecsv.Meta{Key: "spectra_checkpoints", Value: fmt.Sprintf("%d of %d (output.spectra = %q)", len(keep), len(tr.Checkpoints), config.SpectraDecades)})
 	}
 	w := ecsv.NewWriterSize(buf, ecsv.BufferSize, spectrumColumns, tableMeta(st, meta...)).SetDigits(spectrumDigits)
+	// The velocities, and a checkpoint's saturation and R/gOmega, repeat on
+	// many rows: formatted once, they save about 40 % of the formatting,
+	// which is most of the cost of writing a spectrum.
+	var velText []byte
+	velEnd := make([]int, len(vel))
+	for i, v := range vel {
+		velText = w.AppendFloatCell(velText, v)
+		velEnd[i] = len(velText)
+	}
+	var satText, rogText []byte
 	for _, k := range keep {
 		cp := tr.Checkpoints[k]
 		if len(cp.I) != len(vel) || len(cp.Q) != len(vel) || len(cp.U) != len(vel) || len(cp.V) != len(vel) {
 			return &contentError{fmt.Errorf("model %s checkpoint %d: spectra have %d/%d/%d/%d channels, grid has %d", m.Name, k, len(cp.I), len(cp.Q), len(cp.U), len(cp.V), len(vel))}
 		}
+		satText = w.AppendFloatCell(satText[:0], cp.Saturation)
+		rogText = w.AppendFloatCell(rogText[:0], cp.RoverGOmega)
+		start := 0
 		for i := range vel {
-			if err := w.Int(k).Float(cp.Saturation).Float(vel[i]).Float(cp.I[i]).Float(cp.Q[i]).Float(cp.U[i]).Float(cp.V[i]).Float(cp.RoverGOmega).Bool(cp.Valid).End(); err != nil {
+			if err := w.Int(k).FloatText(satText).FloatText(velText[start:velEnd[i]]).Float(cp.I[i]).Float(cp.Q[i]).Float(cp.U[i]).Float(cp.V[i]).FloatText(rogText).Bool(cp.Valid).End(); err != nil {
 				return err
 			}
+			start = velEnd[i]
 		}
 	}
 	return w.Flush()

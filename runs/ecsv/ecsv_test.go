@@ -2,6 +2,7 @@ package ecsv
 
 import (
 	"bytes"
+	"errors"
 	"fmt"
 	"math"
 	"strings"
@@ -368,5 +369,37 @@ func TestNewWriterSize(t *testing.T) {
 	}
 	if small.writes <= large.writes {
 		t.Errorf("4 KiB buffer: %d writes, 64 KiB: %d", small.writes, large.writes)
+	}
+}
+
+// TestFloatText: a cell formatted once by AppendFloatCell and written by
+// FloatText gives the same bytes as Float, at the default digits and at 7;
+// FloatText in a column of another datatype is an error.
+func TestFloatText(t *testing.T) {
+	xs := []float64{math.Pi, -1.234567891e-20, 6.02214076e23, 0, math.Copysign(0, -1), math.NaN(), math.Inf(1), math.Inf(-1), 2.725003}
+	cols := []Column{{Name: "x", Datatype: Float64}}
+	for _, digits := range []int{0, 7} {
+		var a, b strings.Builder
+		wa := NewWriter(&a, cols, nil).SetDigits(digits)
+		wb := NewWriter(&b, cols, nil).SetDigits(digits)
+		for _, x := range xs {
+			if err := wa.Float(x).End(); err != nil {
+				t.Fatal(err)
+			}
+			if err := wb.FloatText(wb.AppendFloatCell(nil, x)).End(); err != nil {
+				t.Fatal(err)
+			}
+		}
+		if err := errors.Join(wa.Flush(), wb.Flush()); err != nil {
+			t.Fatal(err)
+		}
+		if a.String() != b.String() {
+			t.Errorf("digits %d: FloatText wrote\n%s\nFloat wrote\n%s", digits, b.String(), a.String())
+		}
+	}
+	var c strings.Builder
+	w := NewWriter(&c, []Column{{Name: "n", Datatype: Int64}}, nil)
+	if err := w.FloatText([]byte("1.5")).End(); err == nil {
+		t.Error("FloatText in an int64 column accepted")
 	}
 }

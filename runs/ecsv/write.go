@@ -330,11 +330,25 @@ func (w *Writer) WriteCells(cells []string) error {
 // reported by End.
 func (w *Writer) Float(x float64) *Writer {
 	if w.cell(Float64) {
-		if w.digits > 0 && !math.IsNaN(x) && !math.IsInf(x, 0) {
-			w.buf = strconv.AppendFloat(w.buf, x, 'g', w.digits, 64)
-		} else {
-			w.buf = AppendFloat(w.buf, x)
-		}
+		w.buf = w.AppendFloatCell(w.buf, x)
+	}
+	return w
+}
+
+// AppendFloatCell appends x to dst as Float writes it (with the digits
+// of SetDigits), for FloatText: a value repeated on many rows (a
+// checkpoint's saturation, a channel's velocity) is then formatted once.
+func (w *Writer) AppendFloatCell(dst []byte, x float64) []byte {
+	if w.digits > 0 && !math.IsNaN(x) && !math.IsInf(x, 0) {
+		return strconv.AppendFloat(dst, x, 'g', w.digits, 64)
+	}
+	return AppendFloat(dst, x)
+}
+
+// FloatText appends a Float64 cell formatted by AppendFloatCell.
+func (w *Writer) FloatText(b []byte) *Writer {
+	if w.cell(Float64) {
+		w.buf = append(w.buf, b...)
 	}
 	return w
 }
