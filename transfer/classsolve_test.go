@@ -8,9 +8,6 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
-
-	"maserpol/levels"
-	"maserpol/levels/species"
 )
 
 // beamAt fills m.cur with a polarized Gaussian beam (fractions q, u, v of
@@ -42,20 +39,12 @@ func beamAt(t testing.TB, m *Model, sat, q, u, v float64) *state {
 // solve, so the tolerance is set by the conditioning (~R/Gamma) times the
 // solver's residual target.
 func TestIterativeClassSolve(t *testing.T) {
-	sp, err := species.Preset("h2o-22")
-	if err != nil {
-		t.Fatal(err)
-	}
 	for _, tc := range []struct{ field, sat float64 }{
 		{0.3, 1e3},  // R/gOmega ~ 4
 		{0.3, 30},   // R/gOmega ~ 0.1
 		{0.003, 30}, // R/gOmega ~ 10: near-degenerate Zeeman pairs in the strong block
 	} {
-		tr, err := levels.NewTransition(sp, tc.field)
-		if err != nil {
-			t.Fatal(err)
-		}
-		m, err := NewModel(tr, Params{Theta: deg(55), Temperature: 1000, Saturation: tc.sat, Channels: 64, Population: Density})
+		m, err := NewModel(presetAt(t, "h2o-22", tc.field), Params{Theta: deg(55), Temperature: 1000, Saturation: tc.sat, Channels: 64, Population: Density})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -97,7 +86,7 @@ func TestIterativeClassSolve(t *testing.T) {
 // class solve) and keeps the rate equations, with a warning naming both
 // limits, for the synthetic J=6-5 line (over 2000 unknowns).
 func TestAutoClassLimits(t *testing.T) {
-	m, err := NewModel(h2oAt(t, 0.3), Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3, Channels: 64})
+	m, err := NewModel(presetAt(t, "h2o-22", 0.3), Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3, Channels: 64})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -107,15 +96,7 @@ func TestAutoClassLimits(t *testing.T) {
 	if ns := m.cs.strongAt(1e3); ns > autoMaxStrong || ns <= m.cs.nU+m.cs.nL {
 		t.Errorf("h2o-22: strong block %d at R/Gamma = 1e3", ns)
 	}
-	sp, err := species.Preset("synthetic-j6-5")
-	if err != nil {
-		t.Fatal(err)
-	}
-	tr, err := levels.NewTransition(sp, 1)
-	if err != nil {
-		t.Fatal(err)
-	}
-	m, err = NewModel(tr, Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3, Channels: 64})
+	m, err = NewModel(presetAt(t, "synthetic-j6-5", 1), Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3, Channels: 64})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -137,7 +118,7 @@ func BenchmarkClassSolve(b *testing.B) {
 				name = fmt.Sprintf("sat%g/dense", sat)
 			}
 			b.Run(name, func(b *testing.B) {
-				m, err := NewModel(h2oAt(b, 0.3), Params{Theta: deg(55), Temperature: 1000, Saturation: sat, Channels: 64, Population: Density})
+				m, err := NewModel(presetAt(b, "h2o-22", 0.3), Params{Theta: deg(55), Temperature: 1000, Saturation: sat, Channels: 64, Population: Density})
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -175,11 +156,11 @@ func BenchmarkClassSolve(b *testing.B) {
 // amplified by the step control (1e-7).
 func TestIterativeRunMatchesDense(t *testing.T) {
 	p := Params{Theta: deg(60), Temperature: 1000, Saturation: 30, Channels: 64, Population: Density, CheckpointsPerDecade: 1}
-	mi, ti := runModel(t, h2oAt(t, 0.3), p)
+	mi, ti := runModel(t, presetAt(t, "h2o-22", 0.3), p)
 	if mi.cs.it == nil || mi.cs.it.iters == 0 {
 		t.Fatal("the iterative path did not run")
 	}
-	md, err := NewModel(h2oAt(t, 0.3), p)
+	md, err := NewModel(presetAt(t, "h2o-22", 0.3), p)
 	if err != nil {
 		t.Fatal(err)
 	}

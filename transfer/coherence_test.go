@@ -325,7 +325,7 @@ func TestCoherentEnergy(t *testing.T) {
 			Seed: Seed{Tb: 50, LinearFraction: 0.5, CircularFraction: 0.2, Angle: 0.3}}, false},
 		// Iterative class solve (886 unknowns), on a polarized beam at
 		// R/Gamma = 1e3 instead of a run.
-		{"h2o-22 0.3 G iterative", h2oAt(t, 0.3), Params{Theta: deg(55), Temperature: 1000, Saturation: 1e3, Channels: 48, Population: Density}, true},
+		{"h2o-22 0.3 G iterative", presetAt(t, "h2o-22", 0.3), Params{Theta: deg(55), Temperature: 1000, Saturation: 1e3, Channels: 48, Population: Density}, true},
 	} {
 		var m *Model
 		if tc.beam {
@@ -365,9 +365,10 @@ func TestCoherentEnergy(t *testing.T) {
 	}
 }
 
-func h2oAt(t testing.TB, field float64) *levels.Transition {
+// presetAt returns the transition of a species preset at a field (G).
+func presetAt(t testing.TB, name string, field float64) *levels.Transition {
 	t.Helper()
-	sp, err := species.Preset("h2o-22")
+	sp, err := species.Preset(name)
 	if err != nil {
 		t.Fatal(err)
 	}

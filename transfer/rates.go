@@ -378,16 +378,7 @@ func (rs *rateSolver) solve(r []float64, phi float64, dn []float64) error {
 		}
 		lapack64.Potrs(t, rs.rhs)
 	}
-	x := rs.x
-	for e := 0; e < rs.nE; e++ {
-		lo, hi := rs.eOff[e], rs.eOff[e+1]
-		ks := rs.ordK[lo:hi]
-		s := phi * rs.pE[e]
-		for i, rl := range rp[lo:hi] {
-			s += rl * x[ks[i]]
-		}
-		rs.nEv[e] = s / rs.dE[e]
-	}
+	rs.eliminated(rs.nEv, rs.x, rp, phi)
 	rs.inversions(dn)
 	return nil
 }
@@ -463,16 +454,7 @@ func (rs *rateSolver) solveWeak(c, phi float64, dn []float64) bool {
 			}
 			acc[k] = phi * rs.pK[k]
 		}
-		// n_E = D_E^-1 (phi p_E + R^T x), consistent with x.
-		for e := 0; e < rs.nE; e++ {
-			lo, hi := rs.eOff[e], rs.eOff[e+1]
-			ks := rs.ordK[lo:hi]
-			s := phi * rs.pE[e]
-			for i, rl := range rp[lo:hi] {
-				s += rl * x[ks[i]]
-			}
-			ne[e] = s / rs.dE[e]
-		}
+		rs.eliminated(ne, x, rp, phi) // consistent with x
 		if sweep > 0 && bound*delta <= weakEps*xmax {
 			ok = true
 			break
@@ -794,5 +776,20 @@ func (ci *classInversions) store(cls, src []float64, stride, pad int) {
 func (ci *classInversions) clear() {
 	for i := range ci.done {
 		ci.done[i] = false
+	}
+}
+
+// eliminated sets the eliminated populations from the kept ones x:
+// n_E = D_E^-1 (phi p_E + R^T x), with rp the class's rates in the order
+// of ordK.
+func (rs *rateSolver) eliminated(ne, x, rp []float64, phi float64) {
+	for e := 0; e < rs.nE; e++ {
+		lo, hi := rs.eOff[e], rs.eOff[e+1]
+		ks := rs.ordK[lo:hi]
+		s := phi * rs.pE[e]
+		for i, rl := range rp[lo:hi] {
+			s += rl * x[ks[i]]
+		}
+		ne[e] = s / rs.dE[e]
 	}
 }

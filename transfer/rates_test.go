@@ -138,14 +138,7 @@ func TestRateSolverAgainstFullSystem(t *testing.T) {
 func TestRateSolverWeak(t *testing.T) {
 	rng := rand.New(rand.NewPCG(5, 6))
 	for _, name := range []string{"h2o-22", "synthetic-j6-5"} {
-		sp, err := species.Preset(name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		tr, err := levels.NewTransition(sp, 1)
-		if err != nil {
-			t.Fatal(err)
-		}
+		tr := presetAt(t, name, 1)
 		nU, nL := len(tr.Upper.States), len(tr.Lower.States)
 		lines := linesOf(tr)
 		pU, pL := make([]float64, nU), make([]float64, nL)
@@ -205,14 +198,7 @@ func TestChunkSchur(t *testing.T) {
 	}
 	// The solvers of the hyperfine presets, both sides kept.
 	for _, name := range []string{"h2o-22", "synthetic-j6-5"} {
-		sp, err := species.Preset(name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		tr, err := levels.NewTransition(sp, 1)
-		if err != nil {
-			t.Fatal(err)
-		}
+		tr := presetAt(t, name, 1)
 		nU, nL := len(tr.Upper.States), len(tr.Lower.States)
 		pU, pL := make([]float64, nU), make([]float64, nL)
 		for _, keepUp := range []bool{true, false} {
