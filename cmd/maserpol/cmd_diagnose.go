@@ -252,13 +252,18 @@ func printDiagnosis(w io.Writer, d *interpret.Diagnosis, name, satFrom string) {
 	for _, v := range d.Verdicts {
 		valid := "valid"
 		switch {
+		case v.NModels == 0:
+			valid = "-"
 		case v.PartlyValid():
 			valid = "partly outside validity (up to R/Gamma " + g3(v.ValidUpTo) + ")"
 		case !v.Valid:
 			valid = "OUTSIDE validity"
 		}
 		rep := "no"
-		if v.Reproduces {
+		switch {
+		case v.NModels == 0:
+			rep = "not tested"
+		case v.Reproduces:
 			rep = "yes"
 		}
 		fmt.Fprintf(tw, "%s\t%s\t%s\t%s\t%s\t%s\t%s\n", v.Mechanism, v.Parameter, v.Consistent, ivText(v.Reach, pct), ivText(v.RGOmega, g3), valid, rep)

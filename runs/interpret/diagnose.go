@@ -812,6 +812,11 @@ func (d *Diagnosis) conclude() {
 		"velocity gradients, 3-D geometry and beaming other than a single 1-D column; hyperfine-selective pumping",
 		"saturation outside the stated range: the verdicts hold only for the given T_b dOmega or R/Gamma",
 	}
+	for _, v := range d.Verdicts {
+		if v.NModels == 0 {
+			d.CannotRuleOut = append(d.CannotRuleOut, fmt.Sprintf("the %s mechanism: none of its models was computed (see the warnings)", v.Mechanism))
+		}
+	}
 }
 
 // pvStatement says whether the measured P_V constrained the answer beyond

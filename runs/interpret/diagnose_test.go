@@ -2,6 +2,7 @@ package interpret
 
 import (
 	"context"
+	"errors"
 	"math"
 	"path/filepath"
 	"strings"
@@ -338,5 +339,45 @@ func TestMergeTouchingIntervals(t *testing.T) {
 	got := formatIntervals(mergeIntervals([]Interval{{30.04, 49.6}, {6.9, 29.96}, {70, 80}}, 0.5))
 	if got != "6.9-49.6, 70-80" {
 		t.Errorf("got %q, want \"6.9-49.6, 70-80\"", got)
+	}
+}
+
+// TestWeakFieldNotComputed: a weak-field model whose density matrix is
+// beyond practical size is reported as not computed without running
+// (water at 1.3 mG, every one of its 886 unknowns strongly coupled at
+// R/Gamma = 1e3), and a mechanism none of whose models ran is listed among
+// what the diagnosis cannot rule out.
+func TestWeakFieldNotComputed(t *testing.T) {
+	sp, err := species.Preset("h2o-22")
+	if err != nil {
+		t.Fatal(err)
+	}
+	called := false
+	run := practicalDensity(func(context.Context, transfer.Params) (*transfer.Trajectory, error) {
+		called = true
+		return nil, errors.New("ran")
+	})
+	p := transfer.Params{Species: sp, Field: 1.3e-3, Theta: 1, Doppler: 1000, Saturation: 1e3, Channels: 64, Population: transfer.Density}
+	if _, err := run(context.Background(), p); err == nil || called || !strings.Contains(err.Error(), "not computed") {
+		t.Errorf("error %v, inner run called %v", err, called)
+	}
+	p.Population = transfer.Auto
+	if _, err := run(context.Background(), p); !called || err == nil || err.Error() != "ran" {
+		t.Errorf("automatic model: inner run called %v, error %v", called, err)
+	}
+
+	rs := gkkResults(-0.9, -0.9)
+	for _, th := range []float64{0.5, 1} {
+		rs = append(rs, CaseResult{Case: Case{Mechanism: WeakField, Theta: th, RoverGOmega: 10}, Err: errors.New("not computed: too large")})
+	}
+	d, err := Evaluate(Measurement{Ml: 0.30, MlErr: 0.02, Branch: Perpendicular, SatLo: 100, SatHi: 1000}, rs, 30, 1e-3)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v := verdict(t, d, WeakField); v.NModels != 0 || v.Reproduces {
+		t.Errorf("weak field: %d models, reproduces %v", v.NModels, v.Reproduces)
+	}
+	if text := strings.Join(d.CannotRuleOut, " "); !strings.Contains(text, "weak field (R > g Omega) mechanism: none of its models was computed") {
+		t.Errorf("cannot rule out: %s", text)
 	}
 }
