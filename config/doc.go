@@ -102,7 +102,7 @@
 //	faraday.electron_density       cm^-3    "0 cm^-3"      0 .. 1e12 cm^-3, in-source electrons; 0 = none, sweep ne_cm3
 //	faraday.gain_length            au       -              > 0 m, path per e-fold of unsaturated gain; required if electron_density > 0, sweep gain_length_au
 //	populations.model              -        "auto"         "auto", "rates", "density": population model (transfer.PopulationModel)
-//	populations.coherence_threshold -       30             1 .. 1e6, coherence kept below this x saturation, sweep coherence_threshold
+//	populations.coherence_threshold -       300            1 .. 1e6, coherence kept below this x saturation, sweep coherence_threshold
 //	column.saturation              -        1e4            > 0 .. 1e12, target R/Gamma at line centre, sweep saturation
 //	column.gain                    -        -              > 0 .. 700, or target unsaturated gain |tau| (not with saturation), sweep gain
 //	column.checkpoints_per_decade  -        8              1 .. 100, integer, sweep                        checkpoints_per_decade

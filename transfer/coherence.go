@@ -218,8 +218,11 @@ func etaWeights(combo int, im bool, theta float64) [4]float64 {
 
 // DefaultCoherenceThreshold is kappa of the coherence set (see the file
 // comment of coherence.go): project default, chosen so that raising it
-// changes m_l by less than 1e-3 (TestCoherenceThreshold).
-const DefaultCoherenceThreshold = 30.0
+// tenfold changes m_l by less than 1e-3 and u_b by less than 1e-4
+// (TestCoherenceThreshold). u_b sets it: the dropped coherences enter
+// eta_U at first order, and water at 0.3 G needs 300 where m_l alone
+// would be content with 30.
+const DefaultCoherenceThreshold = 300.0
 
 // errNotPhysical marks a class solution with negative populations.
 var errNotPhysical = errors.New("density matrix not positive")
