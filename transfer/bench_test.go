@@ -122,14 +122,7 @@ func benchJ65(b *testing.B, pm PopulationModel) { benchPreset(b, "synthetic-j6-5
 // benchPreset runs a preset at the given field (G) with 256 channels,
 // theta 60 deg, T = 1000 K, to R/Gamma = 1e3.
 func benchPreset(b *testing.B, name string, field float64, pm PopulationModel) {
-	sp, err := species.Preset(name)
-	if err != nil {
-		b.Fatal(err)
-	}
-	tr, err := levels.NewTransition(sp, field)
-	if err != nil {
-		b.Fatal(err)
-	}
+	tr := presetAt(b, name, field)
 	m, err := NewModel(tr, Params{Theta: deg(60), Temperature: 1000, Saturation: 1e3, Channels: 256, Population: pm})
 	if err != nil {
 		b.Fatal(err)
@@ -202,14 +195,7 @@ func BenchmarkLines(b *testing.B) {
 // theta 60 deg, v_D 0.6 km/s, 256 channels, to R/Gamma = 30) with the
 // automatic population model, for profiling the density-matrix path.
 func BenchmarkH2ODemo(b *testing.B) {
-	sp, err := species.Preset("h2o-22")
-	if err != nil {
-		b.Fatal(err)
-	}
-	tr, err := levels.NewTransition(sp, 0.3)
-	if err != nil {
-		b.Fatal(err)
-	}
+	tr := presetAt(b, "h2o-22", 0.3)
 	m, err := NewModel(tr, Params{Theta: deg(60), Doppler: 600, Saturation: 30, CheckpointsPerDecade: 4, FirstCheckpoint: 0.01})
 	if err != nil {
 		b.Fatal(err)

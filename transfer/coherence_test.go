@@ -44,14 +44,7 @@ func runModel(t testing.TB, tr *levels.Transition, p Params) (*Model, *Trajector
 // ~ R/gOmega and enter the absorptive gain at second order) within 1e-3 in
 // q_b and 1 % in P_V, for J=1-0, J=2-1 and h2o-22.
 func TestCoherentLimit(t *testing.T) {
-	sp, err := species.Preset("h2o-22")
-	if err != nil {
-		t.Fatal(err)
-	}
-	h2o, err := levels.NewTransition(sp, 5)
-	if err != nil {
-		t.Fatal(err)
-	}
+	h2o := presetAt(t, "h2o-22", 5)
 	for _, tc := range []struct {
 		name string
 		tr   *levels.Transition
@@ -94,14 +87,7 @@ func TestCoherentLimit(t *testing.T) {
 // theta (covariance); and with theta = 0 the problem is axially symmetric
 // about k, so m_l = 0 at every R/gOmega (physics.md section 8).
 func TestCoherentSymmetry(t *testing.T) {
-	sp, err := species.Preset("hcn-like-j1-0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	hcn0, err := levels.NewTransition(sp, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
+	hcn0 := presetAt(t, "hcn-like-j1-0", 0)
 	for _, tc := range []struct {
 		name string
 		tr   *levels.Transition
@@ -262,14 +248,7 @@ func densityOf(cs *coherent, x []float64, upper bool) *mat.SymDense {
 // (The reduction to section 4 for diagonal rho is TestCoherentLimit and
 // TestCoherentNoPairs.)
 func TestCoherentIdentities(t *testing.T) {
-	sp, err := species.Preset("h2o-22")
-	if err != nil {
-		t.Fatal(err)
-	}
-	h2o, err := levels.NewTransition(sp, 0.3)
-	if err != nil {
-		t.Fatal(err)
-	}
+	h2o := presetAt(t, "h2o-22", 0.3)
 	for _, tc := range []struct {
 		name string
 		tr   *levels.Transition
@@ -389,14 +368,7 @@ func presetAt(t testing.TB, name string, field float64) *levels.Transition {
 // that set the default: its u_b is -0.00155 at kappa = 30, 0.00050 at 100
 // and 0.00029 from 300 on (m_l within 3e-5 throughout).
 func TestCoherenceThreshold(t *testing.T) {
-	sp, err := species.Preset("hcn-like-j1-0")
-	if err != nil {
-		t.Fatal(err)
-	}
-	tr, err := levels.NewTransition(sp, 1)
-	if err != nil {
-		t.Fatal(err)
-	}
+	tr := presetAt(t, "hcn-like-j1-0", 1)
 	p := Params{Theta: deg(50), Temperature: 100, Saturation: 10, Population: Density, CheckpointsPerDecade: 2, Channels: 128, FirstCheckpoint: 0.1}
 	md, a := runModel(t, tr, p)
 	p.CoherenceThreshold = 10 * DefaultCoherenceThreshold

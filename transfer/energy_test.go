@@ -8,7 +8,6 @@ import (
 	"gonum.org/v1/gonum/unit/constant"
 
 	"maserpol/levels"
-	"maserpol/levels/species"
 )
 
 // energyBalance returns, for the current state of m, the power the beam
@@ -97,14 +96,7 @@ func energyBalance(t *testing.T, m *Model, every int) (beam, molecules float64) 
 // K S predicts. Tolerances: 1e-9 for the identity (rounding only), 1e-3
 // for the finite step (its O(h) truncation).
 func TestEnergyConservation(t *testing.T) {
-	sp, err := species.Preset("h2o-22")
-	if err != nil {
-		t.Fatal(err)
-	}
-	h2o, err := levels.NewTransition(sp, 2)
-	if err != nil {
-		t.Fatal(err)
-	}
+	h2o := presetAt(t, "h2o-22", 2)
 	for _, tc := range []struct {
 		name string
 		tr   *levels.Transition

@@ -41,14 +41,7 @@ func checkSaturated(t *testing.T, name string, m *Model, tj *Trajectory, every i
 // energy (the density matrix of the same preset: TestCoherentEnergy). The
 // synthetic-j6-5 preset gets the same checks in TestHyperfineVSaturated.
 func TestHyperfinePresetsSaturate(t *testing.T) {
-	sp, err := species.Preset("h2o-22")
-	if err != nil {
-		t.Fatal(err)
-	}
-	tr, err := levels.NewTransition(sp, 0.3)
-	if err != nil {
-		t.Fatal(err)
-	}
+	tr := presetAt(t, "h2o-22", 0.3)
 	m, err := NewModel(tr, Params{Theta: deg(60), Temperature: 800, Saturation: 1e3, Population: Rates})
 	if err != nil {
 		t.Fatal(err)

@@ -5,21 +5,13 @@ import (
 	"math"
 	"testing"
 
-	"maserpol/levels"
 	"maserpol/levels/species"
 )
 
 // Pumping by {F1, F} level: the named upper level takes its weight, the
 // others 0 with OnlyNamed; the weights keep mean 1 over the level.
 func TestPumpByLevel(t *testing.T) {
-	sp, err := species.Preset("synthetic-j6-5")
-	if err != nil {
-		t.Fatal(err)
-	}
-	tr, err := levels.NewTransition(sp, 0.01)
-	if err != nil {
-		t.Fatal(err)
-	}
+	tr := presetAt(t, "synthetic-j6-5", 0.01)
 	s0 := tr.Upper.States[0]
 	pm := Pump{Kind: Hyperfine, UpperLevels: map[[2]float64]float64{{s0.F1, s0.F}: 2}, OnlyNamed: true}
 	w, err := levelPumpWeights(pm, tr.Upper, true)

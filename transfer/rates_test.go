@@ -8,7 +8,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"maserpol/levels"
-	"maserpol/levels/species"
 )
 
 // fullSolve solves the complete (upper + lower) steady-state rate equations
@@ -64,14 +63,7 @@ func TestRateSolverAgainstFullSystem(t *testing.T) {
 	rng := rand.New(rand.NewPCG(1, 2))
 	trs := map[string]*levels.Transition{"j1-0": j10(0.5, 3)}
 	for _, name := range []string{"h2o-22", "synthetic-j6-5"} {
-		sp, err := species.Preset(name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		tr, err := levels.NewTransition(sp, 2)
-		if err != nil {
-			t.Fatal(err)
-		}
+		tr := presetAt(t, name, 2)
 		trs[name] = tr
 	}
 	sawBand, sawDense := false, false
@@ -244,14 +236,7 @@ func TestPumpWeights(t *testing.T) {
 			break
 		}
 	}
-	sp, err := species.Preset("h2o-22")
-	if err != nil {
-		t.Fatal(err)
-	}
-	h, err := levels.NewTransition(sp, 0.5)
-	if err != nil {
-		t.Fatal(err)
-	}
+	h := presetAt(t, "h2o-22", 0.5)
 	for _, a := range []float64{-1, -0.3, 0.6, 1} {
 		w, err := pumpWeights(Pump{Kind: Anisotropic, Alignment: a}, h.Upper, nil)
 		if err != nil {
