@@ -221,7 +221,7 @@ func schema() []*spec {
 			set: func(p *transfer.Params, x float64) { p.GainLength = x }},
 
 		{table: "populations", name: "model", typ: tEnum, enum: populationModels, def: `"auto"`,
-			doc: "population model: \"rates\" (populations only, valid for R << g Omega), \"density\" (Zeeman coherences, any R/g Omega) or \"auto\" (rates until R/g Omega reaches 1e-3, then the density matrix)"},
+			doc: "population model: \"rates\" (populations only, valid for R << g Omega), \"density\" (Zeeman coherences, any R/g Omega) or \"auto\" (rates until R/g Omega reaches 1e-4, then the density matrix)"},
 		{table: "populations", name: "coherence_threshold", typ: tNumber, column: "coherence_threshold",
 			def: floatText(transfer.DefaultCoherenceThreshold), min: 1, max: 1e6,
 			doc: "keep the coherence of two sublevels of one level whose splitting (rate units) is below this times the target saturation",

@@ -497,3 +497,39 @@ func TestCoherentFieldReversal(t *testing.T) {
 		t.Errorf("u_b = %.3g: the check needs coherences that matter", last.Ub)
 	}
 }
+
+// TestAutoMatchesDensity: the automatic model switches from the rate
+// equations to the density matrix at R/(g Omega) = AutoCoherenceFrom. U/I
+// in the field frame is first order in R/(g Omega) (0.37 R/gOmega at
+// R/gOmega = 0.01 and 0.36 at 0.0316 in the independent SciPy solver,
+// testdata/coherence/values.csv case 1), so the u_b the rate equations
+// miss before the switch, about 0.35 AutoCoherenceFrom, stays in the beam;
+// q_b and P_V differ at second order. Bounds: u_b within 1e-4 (the
+// coherence set's own standard, TestCoherenceThreshold), q_b within 1e-4,
+// P_V within 0.1 % of the density matrix at every checkpoint, on a J=1-0
+// line with g Omega = 100 Gamma taken to R/gOmega = 10 (measured 3.1e-5,
+// 7e-6, 2e-5; with the switch at 1e-3 u_b was 4e-4 off).
+func TestAutoMatchesDensity(t *testing.T) {
+	tr := j10Split(16, 10) // g Omega = 2 pi 16 Hz / Gamma ~ 100
+	p := Params{Theta: deg(60), Doppler: 1000, Saturation: 1000, Channels: 128, CheckpointsPerDecade: 2}
+	pa, pd := p, p
+	pa.Population, pd.Population = Auto, Density
+	ma, auto := runModel(t, tr, pa)
+	_, dens := runModel(t, tr, pd)
+	if from := ma.csFrom * ma.gamma / ma.gOmega; !(from >= AutoCoherenceFrom && from < 3*AutoCoherenceFrom) {
+		t.Fatalf("auto switched at R/gOmega = %.3g, want just past %g", from, AutoCoherenceFrom)
+	}
+	if len(auto.Checkpoints) != len(dens.Checkpoints) {
+		t.Fatalf("%d checkpoints, density %d", len(auto.Checkpoints), len(dens.Checkpoints))
+	}
+	for i, cd := range dens.Checkpoints {
+		ca := auto.Checkpoints[i]
+		if math.Abs(ca.Ub-cd.Ub) > 1e-4 || math.Abs(ca.Qb-cd.Qb) > 1e-4 || math.Abs(ca.PV/cd.PV-1) > 1e-3 {
+			t.Errorf("R/gOmega %.3g: auto u_b %.6f q_b %.6f P_V %.6g, density %.6f %.6f %.6g",
+				cd.RoverGOmega, ca.Ub, ca.Qb, ca.PV, cd.Ub, cd.Qb, cd.PV)
+		}
+	}
+	if last := dens.Checkpoints[len(dens.Checkpoints)-1]; last.RoverGOmega < 5 || math.Abs(last.Ub) < 0.01 {
+		t.Fatalf("the case does not reach the coherent regime: R/gOmega %.3g, u_b %.4f", last.RoverGOmega, last.Ub)
+	}
+}

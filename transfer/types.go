@@ -57,7 +57,7 @@ type PopulationModel int
 const (
 	// Auto uses the rate equations while R/(g Omega) stays below
 	// AutoCoherenceFrom along the column and the density matrix from there
-	// on (the two agree to second order in R/(g Omega) at the switch).
+	// on (u_b, first order in R/(g Omega), is why the switch is early).
 	Auto PopulationModel = iota
 	// Rates keeps populations only (section 4), valid for R << g Omega.
 	Rates
