@@ -202,7 +202,7 @@
 //
 // # Defaults
 //
-// Population Auto, CoherenceThreshold 30 (project choices, see
+// Population Auto, CoherenceThreshold 300 (project choices, see
 // coherence.go), Channels 256, CheckpointsPerDecade 8, FirstCheckpoint
 // 1e-3, Saturation
 // 1e4 (project defaults), Tolerance 4e-4 (calibrated: q_b within 1e-4
