@@ -126,6 +126,25 @@ type iterative struct {
 	prev  []float64 // previous solution per class (warm start), classes x dim
 	prevN []int
 
+	// The sweep's rows in complex form: for the pair whose real unknown
+	// is k, the entries swPtr[(k-np)/2] .. swPtr[(k-np)/2+1] of the
+	// columns before it, each adding coef G (conj G if swConj) times the
+	// column's value z = x[col] + i s x[col+1] (x[col] for a population,
+	// swS = 0).
+	swPtr  []int32
+	swCol  []int32
+	swPair []int32
+	swCoef []float64
+	swS    []float64
+	swConj []bool
+
+	// pairState holds the two states of each pair (population unknowns);
+	// rt is the total stimulated rate out of each state in the class
+	// (sum of its lines' rates), which with the decay and the Bohr
+	// frequency is all of a pair's 2x2 diagonal block.
+	pairState [][2]int32
+	rt        []float64
+
 	// Counters for benchmarks and tests.
 	solves, iters, fallbacks int
 	swept                    int // pairs set by the sweep
@@ -246,6 +265,46 @@ func newIterative(cs *coherent, nc int, tol float64) *iterative {
 		it.tPtr[k+1] += it.tPtr[k]
 	}
 	it.gf = make([]float64, 2*len(cs.pairs))
+	it.rt = make([]float64, np)
+	it.pairState = make([][2]int32, (dim-np)/2)
+	for _, pair := range []struct {
+		idx []int
+		n   int
+		off int32
+	}{{cs.pairU, cs.nU, 0}, {cs.pairL, cs.nL, int32(cs.nU)}} {
+		for a := 0; a < pair.n; a++ {
+			for b := a + 1; b < pair.n; b++ {
+				if k := pair.idx[a*pair.n+b]; k >= 0 {
+					it.pairState[(k-np)/2] = [2]int32{pair.off + int32(a), pair.off + int32(b)}
+				}
+			}
+		}
+	}
+	// The sweep's entries: pair rows, columns before the row's pair.
+	var sw []int
+	for i := range cs.entries {
+		if e := &cs.entries[i]; int(e.rowRe) >= np && e.colRe < e.rowRe {
+			sw = append(sw, i)
+		}
+	}
+	sort.SliceStable(sw, func(a, b int) bool { return cs.entries[sw[a]].rowRe < cs.entries[sw[b]].rowRe })
+	it.swPtr = make([]int32, (dim-np)/2+1)
+	for _, i := range sw {
+		e := &cs.entries[i]
+		it.swPtr[(int(e.rowRe)-np)/2+1]++
+		it.swCol = append(it.swCol, e.colRe)
+		it.swPair = append(it.swPair, e.pair)
+		it.swCoef = append(it.swCoef, e.coef)
+		s := e.s
+		if e.colIm < 0 {
+			s = 0
+		}
+		it.swS = append(it.swS, s)
+		it.swConj = append(it.swConj, e.conj)
+	}
+	for q := 1; q < len(it.swPtr); q++ {
+		it.swPtr[q] += it.swPtr[q-1]
+	}
 	it.ipiv = make([]int, dim)
 	it.dinv = make([][4]float64, (dim-np)/2)
 	it.diag = make([]int32, 0, 2*(dim-np))
@@ -282,30 +341,24 @@ func sortInt32(a []int32) {
 }
 
 // assemble writes the matrix values for cs's current G that the solve of
-// the leading n unknowns and the sweep of the rest read: in the rows
-// below n the columns below n, in a swept pair's two rows the columns
-// before the pair and its own 2x2 block.
+// the leading n unknowns reads: in the rows below n the columns below n
+// (the sweep reads the entries, invertPairs the rates).
 func (it *iterative) assemble(cs *coherent, n int) {
 	gf := it.gf
 	for p, g := range cs.g {
 		gf[2*p], gf[2*p+1] = real(g), imag(g)
 	}
 	idx, coef := it.tIdx, it.tCoef[:len(it.tIdx)]
-	np := cs.nU + cs.nL
-	for i := 0; i < it.dim; i++ {
-		end := n // the last column read in row i, exclusive
-		if i >= n {
-			end = i - (i-np)%2 + 2 // through the pair's own block
+	value := func(k int32) {
+		v := it.base[k]
+		for t := it.tPtr[k]; t < it.tPtr[k+1]; t++ {
+			v += coef[t] * gf[idx[t]]
 		}
-		for k := it.rowPtr[i]; k < it.rowPtr[i+1]; k++ {
-			if int(it.col[k]) >= end {
-				break
-			}
-			v := it.base[k]
-			for t := it.tPtr[k]; t < it.tPtr[k+1]; t++ {
-				v += coef[t] * gf[idx[t]]
-			}
-			it.val[k] = v
+		it.val[k] = v
+	}
+	for i := 0; i < n; i++ {
+		for k := it.rowPtr[i]; k < it.rowPtr[i+1] && int(it.col[k]) < n; k++ {
+			value(k)
 		}
 	}
 }
@@ -356,8 +409,31 @@ func (it *iterative) factor(nS int) bool {
 }
 
 // invertPairs computes the inverse 2x2 diagonal blocks of the weak pairs
-// from nS to n.
-func (it *iterative) invertPairs(nS, n, np int) bool {
+// from nS to dim: assembled below n, from the rates above.
+func (it *iterative) invertPairs(cs *coherent, nS, n, dim, np int) bool {
+	// Swept pairs: the block is [[gamma, -w], [w, gamma]], gamma the decay
+	// plus half the stimulated rates out of both states (the
+	// anticommutator's diagonal; the lines' G are real), so it is not
+	// assembled.
+	rt := it.rt
+	for i := range rt {
+		rt[i] = 0
+	}
+	for l, st := range cs.lineState {
+		r := real(cs.g[l]) // pair l is line l's own rate
+		rt[st[0]] += r
+		rt[st[1]] += r
+	}
+	for k := n; k < dim; k += 2 {
+		q := (k - np) / 2
+		st := it.pairState[q]
+		gm, w := cs.selfG[k]+0.5*(rt[st[0]]+rt[st[1]]), cs.selfW[k]
+		det := gm*gm + w*w
+		if det == 0 || math.IsNaN(det) {
+			return false
+		}
+		it.dinv[q] = [4]float64{gm / det, w / det, -w / det, gm / det}
+	}
 	for k := nS; k < n; k += 2 {
 		q := (k - np) / 2
 		d := it.diag[4*q : 4*q+4]
@@ -419,7 +495,7 @@ func (it *iterative) solve(cs *coherent, j int, rc float64) error {
 	if nS == dim {
 		return it.dense(cs, dim)
 	}
-	if !it.factor(nS) || !it.invertPairs(nS, dim, np) {
+	if !it.factor(nS) || !it.invertPairs(cs, nS, n, dim, np) {
 		return it.dense(cs, dim)
 	}
 	b := cs.x[:dim]
@@ -440,10 +516,30 @@ func (it *iterative) solve(cs *coherent, j int, rc float64) error {
 		return it.dense(cs, dim)
 	}
 	if n < dim {
-		it.sweep(b, x, n, dim, np)
+		it.sweep(cs, b, x, n, dim, np)
 	}
 	copy(b, x)
 	copy(prev, x)
+	it.prevN[j] = dim
+	return nil
+}
+
+// allSwept reports whether at the class rate rc every pair is swept.
+func (it *iterative) allSwept(cs *coherent, rc float64) bool {
+	return it.adiabatic > 0 && (len(cs.keptW) == 0 || cs.keptW[0] >= it.adiabatic*rc)
+}
+
+// sweepAll sweeps every pair of class j whose populations are in cs.x
+// (the rest of cs.x holding the right-hand side, zero for pairs).
+func (it *iterative) sweepAll(cs *coherent, j int) error {
+	dim, np := cs.dim, cs.nU+cs.nL
+	it.solves++
+	if !it.invertPairs(cs, np, np, dim, np) {
+		return errSingular
+	}
+	x := cs.x[:dim]
+	it.sweep(cs, x, x, np, dim, np) // reads b[k] before writing x[k]
+	copy(it.prev[j*it.dim:j*it.dim+it.dim], x)
 	it.prevN[j] = dim
 	return nil
 }
@@ -456,24 +552,22 @@ func (it *iterative) solve(cs *coherent, j int, rc float64) error {
 // the pairs after it and its feedback on the exact part, is second order
 // in R/|omega|. Its own first-order value must stay, though: u_b is first
 // order in it (see adiabaticFactor).
-func (it *iterative) sweep(b, x []float64, n, dim, np int) {
+func (it *iterative) sweep(cs *coherent, b, x []float64, n, dim, np int) {
+	g := cs.g
 	for k := n; k < dim; k += 2 {
-		t0, t1 := b[k], b[k+1]
-		for p := it.rowPtr[k]; p < it.rowPtr[k+1]; p++ {
-			c := int(it.col[p])
-			if c >= k {
-				break
+		q := (k - np) / 2
+		t := complex(b[k], b[k+1])
+		for e := it.swPtr[q]; e < it.swPtr[q+1]; e++ {
+			c := it.swCol[e]
+			z := complex(x[c], it.swS[e]*x[c+1]) // x[c+1] is any finite value for a population
+			ge := g[it.swPair[e]]
+			if it.swConj[e] {
+				ge = complex(real(ge), -imag(ge))
 			}
-			t0 -= it.val[p] * x[c]
+			t -= complex(it.swCoef[e], 0) * ge * z
 		}
-		for p := it.rowPtr[k+1]; p < it.rowPtr[k+2]; p++ {
-			c := int(it.col[p])
-			if c >= k {
-				break
-			}
-			t1 -= it.val[p] * x[c]
-		}
-		d := &it.dinv[(k-np)/2]
+		t0, t1 := real(t), imag(t)
+		d := &it.dinv[q]
 		x[k] = d[0]*t0 + d[1]*t1
 		x[k+1] = d[2]*t0 + d[3]*t1
 	}

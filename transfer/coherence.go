@@ -98,8 +98,11 @@ type coherent struct {
 	g       []complex128 // G per pair for the current class
 
 	// Iterative path (classsolve.go) for class systems with weakly
-	// coupled coherences; nil for small species.
-	it *iterative
+	// coupled coherences; nil for small species. lineState holds each
+	// line's upper and lower state as population unknowns (for it).
+	it        *iterative
+	lineState [][2]int32
+	dn        []float64 // line inversions of the rate solver (scratch)
 
 	// Deposition slots beyond the line slots.
 	slots []dmSlot
@@ -479,7 +482,12 @@ func newCoherent(m *Model, gU, gL float64, pumpU, pumpL []float64, rmax float64)
 	cs.x = make([]float64, dim)
 	cs.g = make([]complex128, len(cs.pairs))
 	if dim > iterativeFrom {
+		cs.lineState = make([][2]int32, len(m.lines))
+		for i, l := range m.lines {
+			cs.lineState[i] = [2]int32{int32(l.up), int32(nU + l.lo)}
+		}
 		cs.it = newIterative(cs, m.n, m.p.Tolerance)
+		cs.dn = make([]float64, len(m.lines))
 	} else {
 		cs.a = make([]float64, dim*dim)
 		cs.ipiv = make([]int, dim)
@@ -577,9 +585,18 @@ func (cs *coherent) solve(m *Model, st *state, j int, rc float64) error {
 		x[i] = phi * v
 	}
 	var err error
-	if cs.it != nil {
+	switch {
+	case cs.it != nil && cs.it.allSwept(cs, rc):
+		// Every pair is swept, so the populations see none of them: they
+		// are the rate equations' (the class system with diagonal rho),
+		// solved by rates.go's elimination instead of a dense LU.
+		if err = m.rs.solve(m.r, phi, cs.dn); err == nil {
+			m.rs.populations(x[:cs.nU], x[cs.nU:cs.nU+cs.nL])
+			err = cs.it.sweepAll(cs, j)
+		}
+	case cs.it != nil:
 		err = cs.it.solve(cs, j, rc)
-	} else {
+	default:
 		err = cs.solveDense()
 	}
 	if err != nil {

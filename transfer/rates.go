@@ -467,6 +467,17 @@ func (rs *rateSolver) solveWeak(c, phi float64, dn []float64) bool {
 	return true
 }
 
+// populations copies the populations of the last class solved into up
+// (upper states) and lo (lower states).
+func (rs *rateSolver) populations(up, lo []float64) {
+	k, e := up, lo
+	if !rs.keepUpper {
+		k, e = lo, up
+	}
+	copy(k, rs.x)
+	copy(e, rs.nEv)
+}
+
 // inversions sets dn of every line from the kept populations x and the
 // eliminated ones nEv.
 func (rs *rateSolver) inversions(dn []float64) {

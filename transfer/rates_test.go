@@ -303,17 +303,6 @@ func TestPumpWeights(t *testing.T) {
 // Test-only accessors of rateSolver, for comparing its solution with the
 // independent full-system solve.
 
-// populations copies the last solution into upper and lower (lengths nU, nL).
-func (rs *rateSolver) populations(upper, lower []float64) {
-	if rs.keepUpper {
-		copy(upper, rs.x)
-		copy(lower, rs.nEv)
-	} else {
-		copy(upper, rs.nEv)
-		copy(lower, rs.x)
-	}
-}
-
 // gKE returns the decay rate (units of Gamma) of the upper or lower level.
 func (rs *rateSolver) gKE(upper bool) float64 {
 	if upper == rs.keepUpper {
