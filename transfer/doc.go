@@ -147,7 +147,11 @@
 // the class's rate, factored densely) and a block Gauss-Seidel sweep over
 // the weakly coupled pairs, warm-started from the class's previous
 // solution (classsolve.go): the cost per class is set by the strong block
-// and the stencil, not by the cube of the kept set. A class whose
+// and the stencil, not by the cube of the kept set. Pairs split by more
+// than adiabaticFactor (30) times the class's rate take their first-order
+// value in one sweep after the solve (errors second order in R/|omega|),
+// and a class whose pairs are all that weak takes its populations from
+// the rate equations. A class whose
 // populations come out negative stops the run with a StepError naming the
 // position, class and saturation.
 //
