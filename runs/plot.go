@@ -475,8 +475,11 @@ type saver func(fig *figures.Stack, name string) error
 
 // ownFigure matches the names Plot writes, so that a redraw removes
 // figures of an earlier layout (e.g. saturation_3 when there are now two)
-// and leaves other files alone.
-var ownFigure = regexp.MustCompile(`^(m\d+_(spectra|evolution)|saturation(_[A-Za-z0-9.+-]+)?|theta(_\d+)?)\.(png|svg|pdf|eps)$`)
+// and leaves other files alone. It is compiled when first needed, not at
+// every start of the program.
+var ownFigure = sync.OnceValue(func() *regexp.Regexp {
+	return regexp.MustCompile(`^(m\d+_(spectra|evolution)|saturation(_[A-Za-z0-9.+-]+)?|theta(_\d+)?)\.(png|svg|pdf|eps)$`)
+})
 
 // removeOwnFigures removes the figures Plot draws in the formats about to
 // be drawn, and only those: a redraw in PDF keeps the PNG files.
@@ -484,7 +487,7 @@ func removeOwnFigures(pd string, formats []string) {
 	ents, _ := os.ReadDir(pd)
 	for _, e := range ents {
 		ext := strings.ToLower(strings.TrimPrefix(filepath.Ext(e.Name()), "."))
-		if ownFigure.MatchString(e.Name()) && slices.Contains(formats, ext) {
+		if ownFigure().MatchString(e.Name()) && slices.Contains(formats, ext) {
 			os.Remove(filepath.Join(pd, e.Name()))
 		}
 	}
