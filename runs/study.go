@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -118,60 +119,67 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	defer lock.Unlock()
 	l := newLayout(st)
 	now := time.Now()
-	man, err := prepareDir(st, dir, l, opt, now)
-	if err != nil {
-		return nil, err
-	}
 	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, SummaryName), Manifest: filepath.Join(dir, "manifest.json")}
 	if lock.Stale != "" {
 		rep.Notes = append(rep.Notes, "took over the lock left by "+lock.Stale+", which no longer runs")
 	}
-
-	// The models/ files are the record of what is finished; a file that
-	// fails its check is recomputed.
-	var todo []int
-	for i := range st.Models {
-		m := &st.Models[i]
-		ms := &man.Models[i]
-		if !opt.Shard.Holds(m.Index) {
-			if ms.Status != StatusDone {
-				ms.Status, ms.Error = StatusPending, ""
-			}
-			continue
-		}
-		rep.InShard++
-		status, msg := finished(dir, m.Name)
-		switch status {
-		case StatusDone:
-			ms.Status, ms.Error = StatusDone, ""
-			rep.Skipped++
-			continue
-		case StatusFailed:
-			ms.Status, ms.Error = StatusFailed, msg
-		case statusDamaged:
-			ms.Status, ms.Error = StatusPending, ""
-			rep.Notes = append(rep.Notes, msg+"; computing the model again")
-		default:
-			ms.Status, ms.Error = StatusPending, ""
-		}
-		todo = append(todo, i)
-	}
-	kind := "run"
-	if opt.Resume && len(man.Sessions) > 0 {
-		kind = "resume"
-	}
-	man.Sessions = append(man.Sessions, Session{Kind: kind, Started: stamp(now), Workers: opt.Workers, Shard: opt.Shard.String()})
-	sess := &man.Sessions[len(man.Sessions)-1]
-	man.update()
-	if err := man.write(dir); err != nil {
-		return nil, err
-	}
+	session := Session{Kind: "run", Started: stamp(now), Workers: opt.Workers, Shard: opt.Shard.String()}
 
 	// A write error stops the study: models still running are cancelled
 	// and stay pending, finished ones are kept.
 	runCtx, stopRun := context.WithCancel(ctx)
 	defer stopRun()
-	prog := newProgress(opt.Progress, len(todo), rep.Skipped, rep.InShard)
+	var (
+		man  *Manifest
+		todo []int
+		// ready is closed once the directory can take model files;
+		// dirErr, set before, tells the workers that it never will.
+		ready  = make(chan struct{})
+		dirErr error
+	)
+	if _, err := os.Stat(dir); errors.Is(err, fs.ErrNotExist) {
+		// A new directory: every model of the shard is to run. The
+		// directory and its models/ and spectra/ are made at once, and
+		// the models start while config.toml and manifest.json are
+		// written and synced (several milliseconds, tens on a busy
+		// disk); no model file is written before them. A kill before the
+		// manifest leaves what startedHere accepts, so the directory is
+		// continued like an empty one.
+		removeTempDirs(dir) // left by a killed process (createDir)
+		if err := makeRunDir(dir); err != nil {
+			return nil, err
+		}
+		for i := range st.Models {
+			if opt.Shard.Holds(st.Models[i].Index) {
+				rep.InShard++
+				todo = append(todo, i)
+			}
+		}
+		go func() {
+			defer close(ready)
+			man = newManifest(st, l, opt.Shard, now)
+			man.Sessions = []Session{session}
+			if dirErr = man.fill(st)(dir); dirErr != nil {
+				stopRun()
+				os.RemoveAll(dir) // made here and holding no result: as if never started
+			}
+		}()
+	} else {
+		var err error
+		if man, todo, err = prepareExisting(st, dir, l, opt, now, rep); err != nil {
+			return nil, err
+		}
+		if opt.Resume && len(man.Sessions) > 0 {
+			session.Kind = "resume"
+		}
+		man.Sessions = append(man.Sessions, session)
+		man.update()
+		if err := man.write(dir); err != nil {
+			return nil, err
+		}
+		close(ready)
+	}
+
 	type result struct {
 		i        int
 		err      error
@@ -193,10 +201,12 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 					continue
 				}
 				t0 := time.Now()
-				warn, err := runOne(runCtx, st, l, dir, &st.Models[i], opt.Model)
+				warn, err := runOne(runCtx, st, l, dir, &st.Models[i], opt.Model, ready, &dirErr)
 				r := result{i: i, err: err, warnings: warn, secs: time.Since(t0).Seconds()}
 				var we *writeError
-				if errors.As(err, &we) {
+				if errors.Is(err, errNoDir) {
+					r.canceled = true
+				} else if errors.As(err, &we) {
 					stopRun() // at once, before another model starts
 				} else if err != nil && runCtx.Err() != nil {
 					r.canceled = true
@@ -221,6 +231,14 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		}
 	}()
 	go func() { wg.Wait(); close(results) }()
+	<-ready
+	if dirErr != nil {
+		for range results {
+		}
+		return nil, dirErr
+	}
+	sess := &man.Sessions[len(man.Sessions)-1]
+	prog := newProgress(opt.Progress, len(todo), rep.Skipped, rep.InShard)
 	var writeErr error
 	lastWrite := time.Now()
 	for r := range results {
@@ -326,6 +344,10 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	return rep, nil
 }
 
+// errNoDir is the result of a model computed for a run directory that
+// could not be made; the model stays pending.
+var errNoDir = errors.New("no run directory")
+
 // writeError marks a failure to write results (disk full, permissions),
 // which stops the study rather than counting as a failed model.
 type writeError struct{ err error }
@@ -335,7 +357,10 @@ func (e *writeError) Unwrap() error { return e.err }
 
 // runOne computes one model and writes its spectrum and then its models/
 // file. A failed model gets a models/ file with status failed.
-func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *config.Model, run ModelFunc) (warnings []string, err error) {
+//
+// The model is computed before ready is closed if need be; its files are
+// written after, and not at all if *dirErr is then set (errNoDir).
+func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *config.Model, run ModelFunc, ready <-chan struct{}, dirErr *error) (warnings []string, err error) {
 	var tr *transfer.Trajectory
 	func() {
 		defer func() {
@@ -356,6 +381,10 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 	}
 	if err == nil {
 		tr.Warnings = append(tr.Warnings, checkGrid(ctx, m.Params, tr)...)
+	}
+	<-ready
+	if *dirErr != nil {
+		return nil, errNoDir
 	}
 	var sum string
 	if err == nil {
@@ -438,12 +467,53 @@ func finished(dir, name string) (status, msg string) {
 	return statusDamaged, fmt.Sprintf("%s records no status", mf)
 }
 
-// prepareDir creates a fresh run directory or checks one to resume. It
-// never modifies an existing directory it refuses. A fresh directory is
-// made complete (config.toml, manifest.json, models/, spectra/) under a
-// temporary name and renamed into place, so a kill at any moment leaves
-// either no directory or one that --resume continues. The caller holds
-// the directory's lock.
+// prepareExisting prepares a directory that exists (prepareDir) and finds
+// the models of the shard that are to run; those finished in earlier
+// sessions are counted in rep.
+func prepareExisting(st *config.Study, dir string, l layout, opt Options, now time.Time, rep *Report) (*Manifest, []int, error) {
+	man, err := prepareDir(st, dir, l, opt, now)
+	if err != nil {
+		return nil, nil, err
+	}
+	// The models/ files are the record of what is finished; a file that
+	// fails its check is recomputed.
+	var todo []int
+	for i := range st.Models {
+		m := &st.Models[i]
+		ms := &man.Models[i]
+		if !opt.Shard.Holds(m.Index) {
+			if ms.Status != StatusDone {
+				ms.Status, ms.Error = StatusPending, ""
+			}
+			continue
+		}
+		rep.InShard++
+		status, msg := finished(dir, m.Name)
+		switch status {
+		case StatusDone:
+			ms.Status, ms.Error = StatusDone, ""
+			rep.Skipped++
+			continue
+		case StatusFailed:
+			ms.Status, ms.Error = StatusFailed, msg
+		case statusDamaged:
+			ms.Status, ms.Error = StatusPending, ""
+			rep.Notes = append(rep.Notes, msg+"; computing the model again")
+		default:
+			ms.Status, ms.Error = StatusPending, ""
+		}
+		todo = append(todo, i)
+	}
+	return man, todo, nil
+}
+
+// prepareDir checks an existing run directory to resume, or fills an
+// empty one (or one a killed start left, see startedHere). It never
+// modifies an existing directory it refuses. A directory that is gone by
+// now is made complete (config.toml, manifest.json, models/, spectra/)
+// under a temporary name and renamed into place. Execute makes new
+// directories itself, beside the first models. The caller holds the
+// directory's lock.
 func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Time) (*Manifest, error) {
 	if dir == "" {
 		return nil, inputErrorf("no run directory given (set output.dir in the config or use --out)")
@@ -488,12 +558,7 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 		}
 	}
 	man := newManifest(st, l, opt.Shard, now)
-	fill := func(d string) error {
-		if err := writeFileAtomic(filepath.Join(d, "config.toml"), st.Resolved); err != nil {
-			return err
-		}
-		return man.write(d) // last: the manifest marks a run directory
-	}
+	fill := man.fill(st)
 	if exists {
 		// An existing empty directory (perhaps the working directory) is
 		// filled in place: replacing it could pull it from under a
@@ -512,6 +577,34 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 		return nil, err
 	}
 	return man, nil
+}
+
+// fill returns the function that writes a new run directory's files
+// into d: config.toml, then the manifest, which marks a run directory.
+func (m *Manifest) fill(st *config.Study) func(d string) error {
+	return func(d string) error {
+		if err := writeFileAtomic(filepath.Join(d, "config.toml"), st.Resolved); err != nil {
+			return err
+		}
+		return m.write(d)
+	}
+}
+
+// makeRunDir makes a new run directory with its models/ and spectra/.
+func makeRunDir(dir string) error {
+	if err := os.MkdirAll(filepath.Dir(dir), 0o755); err != nil {
+		return err
+	}
+	if err := os.Mkdir(dir, 0o755); err != nil {
+		return err
+	}
+	for _, sub := range []string{"models", "spectra"} {
+		if err := os.Mkdir(filepath.Join(dir, sub), 0o755); err != nil {
+			os.RemoveAll(dir)
+			return fmt.Errorf("creating %s: %w", dir, err)
+		}
+	}
+	return nil
 }
 
 // startedHere reports whether dir is empty, or holds only what a start of
