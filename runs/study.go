@@ -298,33 +298,66 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 			rep.Pending++
 		}
 	}
-	vs, err := writeSummary(dir, man, l.cols)
-	if err != nil && writeErr == nil {
-		writeErr = err
+	// The summary is rebuilt from the models/ files while the final
+	// manifest is written: both are synced at the same time (one wait for
+	// the disk instead of two) and renamed in that order, so the manifest
+	// never calls a study complete whose summary is not on disk. The
+	// manifest is first written as if the summary succeeds, and written
+	// again if it did not.
+	type summaryResult struct {
+		vs   ValidityStats
+		file *pendingFile
+		err  error
 	}
-	rep.Validity = vs
-	// Record the models' status before drawing: figures are derived from
-	// the tables, and a failure to draw must not hide finished models. The
-	// manifest never calls a study complete whose summary.csv is not on
-	// disk.
-	man.update()
+	sumDone := make(chan summaryResult, 1)
+	go func(s *summary) {
+		var r summaryResult
+		r.vs, r.file, r.err = s.write()
+		sumDone <- r
+	}(newSummary(dir, man, l.cols))
 	end := stamp(time.Now())
 	sess.Finished = end
 	// A signal that arrives once every model of the session is finished
 	// interrupts nothing but the figures.
 	interrupted := ctx.Err() != nil && rep.Pending > 0
-	switch {
-	case writeErr != nil:
-		man.Status = StudyInterrupted
-		sess.Stopped = "write error: " + writeErr.Error()
-	case interrupted:
-		man.Status = StudyInterrupted
-		sess.Stopped = "interrupted"
-	case man.Status != StudyIncomplete:
-		man.Finished = end
+	// Record the models' status before drawing: figures are derived from
+	// the tables, and a failure to draw must not hide finished models.
+	settle := func() {
+		man.update()
+		man.Finished = ""
+		switch {
+		case writeErr != nil:
+			man.Status = StudyInterrupted
+			sess.Stopped = "write error: " + writeErr.Error()
+		case interrupted:
+			man.Status = StudyInterrupted
+			sess.Stopped = "interrupted"
+		case man.Status != StudyIncomplete:
+			man.Finished = end
+		}
 	}
-	if err := man.write(dir); err != nil && writeErr == nil {
-		writeErr = err
+	settle()
+	manFile, manErr := man.pending(dir)
+	sr := <-sumDone
+	rep.Validity = sr.vs
+	if sr.err == nil && sr.file != nil {
+		sr.err = sr.file.commit()
+	}
+	if sr.err == nil {
+		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
+	} else if writeErr == nil {
+		writeErr = sr.err
+		if manFile != nil {
+			manFile.discard()
+		}
+		settle()
+		manFile, manErr = man.pending(dir)
+	}
+	if manErr == nil {
+		manErr = manFile.commit()
+	}
+	if manErr != nil && writeErr == nil {
+		writeErr = manErr
 	}
 	if writeErr != nil {
 		return rep, writeErr
@@ -758,7 +791,26 @@ func summaryStats(vs *ValidityStats, t *ecsv.Table, ncols int) error {
 // order. It needs only the directory and its manifest, so Merge builds the
 // same bytes as Execute; cols is the layout to use when no model is done.
 func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats, error) {
-	var vs ValidityStats
+	vs, p, err := newSummary(dir, man, cols).write()
+	if err == nil && p != nil {
+		err = p.commit()
+	}
+	if err == nil {
+		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
+	}
+	return vs, err
+}
+
+// summary is what the summary table is built from, taken from the
+// manifest so that the table can be written while the manifest changes.
+type summary struct {
+	dir  string
+	meta []ecsv.Meta
+	cols []ecsv.Column
+	done []string // models/ files of the finished models, in index order
+}
+
+func newSummary(dir string, man *Manifest, cols []ecsv.Column) *summary {
 	meta := []ecsv.Meta{
 		{Key: "program", Value: "maserpol " + Version},
 		{Key: "config_hash", Value: man.ConfigHash},
@@ -768,27 +820,35 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 	if len(man.VariedColumns) > 0 {
 		meta = append(meta, ecsv.Meta{Key: "varied_columns", Value: strings.Join(man.VariedColumns, ", ")})
 	}
-	// The model tables are read one at a time and their rows streamed into
-	// the summary, so memory does not grow with the number of models.
 	done := make([]string, 0, len(man.Models))
 	for _, ms := range man.Models {
 		if ms.Status == StatusDone {
 			done = append(done, filepath.Join(dir, "models", ms.Name+".ecsv"))
 		}
 	}
+	return &summary{dir: dir, meta: meta, cols: cols, done: done}
+}
+
+// write writes the summary, synced, under a temporary name (nil when no
+// model is done and there is no layout to write an empty table with).
+func (s *summary) write() (ValidityStats, *pendingFile, error) {
+	var vs ValidityStats
+	cols := s.cols
 	if cols == nil {
-		if len(done) == 0 {
-			return vs, nil
+		if len(s.done) == 0 {
+			return vs, nil, nil
 		}
-		t, err := ecsv.ReadFile(done[0])
+		t, err := ecsv.ReadFile(s.done[0])
 		if err != nil {
-			return vs, err
+			return vs, nil, err
 		}
 		cols = t.Columns
 	}
-	err := writeAtomic(filepath.Join(dir, SummaryName), func(out io.Writer) error {
-		w := ecsv.NewWriterSize(out, ecsv.BufferSize, cols, meta)
-		for _, path := range done {
+	// The model tables are read one at a time and their rows streamed into
+	// the summary, so memory does not grow with the number of models.
+	p, err := writePending(filepath.Join(s.dir, SummaryName), func(out io.Writer) error {
+		w := ecsv.NewWriterSize(out, ecsv.BufferSize, cols, s.meta)
+		for _, path := range s.done {
 			t, err := ecsv.ReadFile(path)
 			if err != nil {
 				return err
@@ -803,9 +863,6 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 			}
 		}
 		return w.Flush()
-	})
-	if err == nil {
-		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
-	}
-	return vs, err
+	}, true)
+	return vs, p, err
 }
