@@ -572,7 +572,8 @@ func readSummary(t *ecsv.Table) ([]*summaryModel, error) {
 	var cur *summaryModel
 	for i, n := range names {
 		if cur == nil || cur.name != n {
-			cur = &summaryModel{name: n, species: species[i]}
+			// Copies: the cells share the memory of the whole table.
+			cur = &summaryModel{name: strings.Clone(n), species: strings.Clone(species[i])}
 			for j := lo; j < hi; j++ {
 				cur.params = append(cur.params, param{t.Columns[j], pcols[j-lo][i]})
 			}
