@@ -331,6 +331,11 @@ func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold 
 	for k := range left {
 		left[k] = nf
 	}
+	// The figures are handed out format by format, PNG first: a PNG
+	// costs 20-50 times an SVG, and with the long jobs first the short
+	// ones (SVGs, then the extra jobs) fill the workers' ends evenly
+	// (longest-job-first list scheduling).
+	order := formatOrder(d.formats)
 	var next atomic.Int64
 	var failed atomic.Bool // a serial draw stops at the first error
 	var wg sync.WaitGroup
@@ -353,8 +358,8 @@ func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold 
 					}
 					continue
 				}
-				k, f := i/nf, i%nf
-				r := &res[i]
+				f, k := order[i/len(jobs)], i%len(jobs)
+				r := &res[k*nf+f]
 				if r.err = d.ctx.Err(); r.err == nil {
 					r.fig = *jobs[k].fig
 					r.paths, r.err = r.fig.Save(filepath.Join(d.pd, jobs[k].name), d.formats[f:f+1])
@@ -393,6 +398,20 @@ func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold 
 		}
 	}
 	return out, notes, nil
+}
+
+// formatOrder lists the indices of formats with the raster format (png)
+// first, the others in their order.
+func formatOrder(formats []string) []int {
+	var order []int
+	for pass := 0; pass < 2; pass++ {
+		for i, f := range formats {
+			if (strings.ToLower(f) == "png") == (pass == 0) {
+				order = append(order, i)
+			}
+		}
+	}
+	return order
 }
 
 // figureDone counts a study figure whose formats are all done and shows
