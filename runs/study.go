@@ -139,14 +139,16 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	)
 	if _, err := os.Stat(dir); errors.Is(err, fs.ErrNotExist) {
 		// A new directory: every model of the shard is to run. The
-		// directory and its models/ and spectra/ are made at once, and
-		// the models start while config.toml and manifest.json are
-		// written and synced (several milliseconds, tens on a busy
-		// disk); no model file is written before them. A kill before the
+		// directory is made at once, and the models start while its
+		// models/ and spectra/, config.toml and manifest.json are made,
+		// written and synced (several milliseconds, tens on a busy disk);
+		// no model file is written before them. A kill before the
 		// manifest leaves what startedHere accepts, so the directory is
 		// continued like an empty one.
-		removeTempDirs(dir) // left by a killed process (createDir)
-		if err := makeRunDir(dir); err != nil {
+		if err := os.MkdirAll(filepath.Dir(dir), 0o755); err != nil {
+			return nil, err
+		}
+		if err := os.Mkdir(dir, 0o755); err != nil {
 			return nil, err
 		}
 		for i := range st.Models {
@@ -157,9 +159,20 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		}
 		go func() {
 			defer close(ready)
-			man = newManifest(st, l, opt.Shard, now)
-			man.Sessions = []Session{session}
-			if dirErr = man.fill(st)(dir); dirErr != nil {
+			removeTempDirs(dir) // left by a killed process (createDir)
+			for _, sub := range []string{"models", "spectra"} {
+				if dirErr == nil {
+					if dirErr = os.Mkdir(filepath.Join(dir, sub), 0o755); dirErr != nil {
+						dirErr = fmt.Errorf("creating %s: %w", dir, dirErr)
+					}
+				}
+			}
+			if dirErr == nil {
+				man = newManifest(st, l, opt.Shard, now)
+				man.Sessions = []Session{session}
+				dirErr = man.fill(st)(dir)
+			}
+			if dirErr != nil {
 				stopRun()
 				os.RemoveAll(dir) // made here and holding no result: as if never started
 			}
@@ -614,30 +627,38 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 
 // fill returns the function that writes a new run directory's files
 // into d: config.toml, then the manifest, which marks a run directory.
+// Both are written and synced at the same time (one wait for the disk
+// instead of two) and renamed in that order.
 func (m *Manifest) fill(st *config.Study) func(d string) error {
 	return func(d string) error {
-		if err := writeFileAtomic(filepath.Join(d, "config.toml"), st.Resolved); err != nil {
-			return err
+		var cfg *pendingFile
+		var cfgErr error
+		done := make(chan struct{})
+		go func() {
+			defer close(done)
+			cfg, cfgErr = writePending(filepath.Join(d, "config.toml"), func(w io.Writer) error {
+				_, err := w.Write(st.Resolved)
+				return err
+			}, true)
+		}()
+		man, err := m.pending(d)
+		<-done
+		if err == nil && cfgErr == nil {
+			if err = cfg.commit(); err == nil {
+				return man.commit()
+			}
 		}
-		return m.write(d)
-	}
-}
-
-// makeRunDir makes a new run directory with its models/ and spectra/.
-func makeRunDir(dir string) error {
-	if err := os.MkdirAll(filepath.Dir(dir), 0o755); err != nil {
+		if cfg != nil {
+			cfg.discard()
+		}
+		if man != nil {
+			man.discard()
+		}
+		if cfgErr != nil {
+			return cfgErr
+		}
 		return err
 	}
-	if err := os.Mkdir(dir, 0o755); err != nil {
-		return err
-	}
-	for _, sub := range []string{"models", "spectra"} {
-		if err := os.Mkdir(filepath.Join(dir, sub), 0o755); err != nil {
-			os.RemoveAll(dir)
-			return fmt.Errorf("creating %s: %w", dir, err)
-		}
-	}
-	return nil
 }
 
 // startedHere reports whether dir is empty, or holds only what a start of
