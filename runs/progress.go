@@ -71,7 +71,9 @@ func (p *progress) finish() {
 		return
 	}
 	if p.bar != nil {
-		p.bar.render(time.Now())
+		if p.bar.drawnN != p.bar.n { // the last count was throttled
+			p.bar.render(time.Now())
+		}
 		fmt.Fprintln(p.w)
 	}
 	fmt.Fprintf(p.w, "maserpol: %d of %s finished (%.1f s)\n", p.n, models(p.total), time.Since(p.start).Seconds())
@@ -91,6 +93,7 @@ type bar struct {
 	n, max     int
 	start      time.Time
 	last       time.Time // last drawn
+	drawnN     int       // count of the last line drawn
 	drawnWidth int       // characters of the last line drawn, to blank its rest
 }
 
@@ -127,7 +130,7 @@ func (b *bar) render(now time.Time) {
 	width := len([]rune(s))
 	pad := max(b.drawnWidth-width, 0)
 	fmt.Fprintf(b.w, "\r%s%s", s, strings.Repeat(" ", pad))
-	b.drawnWidth, b.last = width, now
+	b.drawnWidth, b.drawnN, b.last = width, b.n, now
 }
 
 // clear blanks the bar's line so that a message can take its place.
