@@ -9,7 +9,6 @@ import (
 	"math"
 	"os"
 	"path/filepath"
-	"regexp"
 	"slices"
 	"sort"
 	"strconv"
@@ -87,7 +86,25 @@ func (ps *parser) unknown(path, name string, known []string) *Error {
 	return e
 }
 
-var nameRE = regexp.MustCompile(`^[A-Za-z0-9][A-Za-z0-9._-]{0,99}$`)
+// validName reports whether s is a study name: letters, digits, '.', '_'
+// and '-', starting with a letter or digit, at most 100 bytes. It is
+// written out rather than a regular expression: compiling the bounded
+// repetition {0,99} took 2-4 ms at every start of the program.
+func validName(s string) bool {
+	if len(s) == 0 || len(s) > 100 || !isAlnum(s[0]) {
+		return false
+	}
+	for i := 1; i < len(s); i++ {
+		if c := s[i]; !isAlnum(c) && c != '.' && c != '_' && c != '-' {
+			return false
+		}
+	}
+	return true
+}
+
+func isAlnum(c byte) bool {
+	return 'a' <= c && c <= 'z' || 'A' <= c && c <= 'Z' || '0' <= c && c <= '9'
+}
 
 // parsed is the validated content of a document before expansion.
 type parsed struct {
@@ -271,7 +288,7 @@ func (ps *parser) key(s *spec, pd *parsed) *Error {
 		if str == "" {
 			return ps.err(path, s.allowed(), "empty string")
 		}
-		if path == "name" && !nameRE.MatchString(str) {
+		if path == "name" && !validName(str) {
 			return ps.err(path, "letters, digits, '.', '_' and '-', starting with a letter or digit, at most 100", "bad name %q", str)
 		}
 		pd.str[path] = str
@@ -719,7 +736,7 @@ var paramKeys = map[string]string{
 
 func defaultName(file string) string {
 	base := strings.TrimSuffix(filepath.Base(file), filepath.Ext(file))
-	if file == "" || !nameRE.MatchString(base) {
+	if file == "" || !validName(base) {
 		return "study"
 	}
 	return base

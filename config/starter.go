@@ -3,7 +3,6 @@ package config
 import (
 	"fmt"
 	"math"
-	"regexp"
 	"strconv"
 	"strings"
 
@@ -135,15 +134,26 @@ func StarterNamed(speciesName, name string) (string, error) {
 	return b.String(), nil
 }
 
-var notNameChar = regexp.MustCompile(`[^A-Za-z0-9._-]+`)
-
-// cleanName makes a valid study name of s: "" becomes "example".
+// cleanName makes a valid study name of s: "" becomes "example". Each run
+// of characters not allowed in a name becomes one '-'.
 func cleanName(s string) string {
-	s = strings.Trim(notNameChar.ReplaceAllString(s, "-"), "-._")
+	var b strings.Builder
+	bad := false
+	for i := 0; i < len(s); i++ {
+		c := s[i]
+		if isAlnum(c) || c == '.' || c == '_' || c == '-' {
+			b.WriteByte(c)
+			bad = false
+		} else if !bad {
+			b.WriteByte('-')
+			bad = true
+		}
+	}
+	s = strings.Trim(b.String(), "-._")
 	if len(s) > 100 {
 		s = s[:100]
 	}
-	if !nameRE.MatchString(s) {
+	if !validName(s) {
 		return "example"
 	}
 	return s

@@ -45,13 +45,28 @@ func writeChecked(path string, fill func(io.Writer) error) error {
 }
 
 func writeTemp(path string, fill func(io.Writer) error, sync bool) error {
+	p, err := writePending(path, fill, sync)
+	if err != nil {
+		return err
+	}
+	return p.commit()
+}
+
+// pendingFile is a file written (and synced, if asked) under a temporary
+// name and not yet renamed into place: a caller that writes two files can
+// sync them at once and still rename them in order.
+type pendingFile struct{ tmp, path string }
+
+// writePending writes what fill writes into a temporary file in the
+// directory of path; commit renames it to path.
+func writePending(path string, fill func(io.Writer) error, sync bool) (*pendingFile, error) {
 	dir, base := filepath.Split(path)
 	if dir == "" {
 		dir = "."
 	}
 	f, err := os.CreateTemp(dir, base+tmpMarker+"*")
 	if err != nil {
-		return err
+		return nil, err
 	}
 	tmp := f.Name()
 	err = fill(f)
@@ -64,15 +79,24 @@ func writeTemp(path string, fill func(io.Writer) error, sync bool) error {
 	if err == nil {
 		err = os.Chmod(tmp, 0o644)
 	}
-	if err == nil {
-		err = os.Rename(tmp, path)
-	}
 	if err != nil {
 		os.Remove(tmp)
-		return fmt.Errorf("writing %s: %w", path, err)
+		return nil, fmt.Errorf("writing %s: %w", path, err)
+	}
+	return &pendingFile{tmp, path}, nil
+}
+
+// commit renames the file into place.
+func (p *pendingFile) commit() error {
+	if err := os.Rename(p.tmp, p.path); err != nil {
+		os.Remove(p.tmp)
+		return fmt.Errorf("writing %s: %w", p.path, err)
 	}
 	return nil
 }
+
+// discard removes the file.
+func (p *pendingFile) discard() { os.Remove(p.tmp) }
 
 // removeTemps deletes temporary files left by an interrupted session.
 func removeTemps(dirs ...string) {

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"sort"
@@ -178,12 +179,25 @@ func (m *Manifest) update() {
 }
 
 func (m *Manifest) write(dir string) error {
-	sort.Slice(m.Models, func(i, j int) bool { return m.Models[i].Index < m.Models[j].Index })
-	data, err := json.MarshalIndent(m, "", "  ")
+	p, err := m.pending(dir)
 	if err != nil {
 		return err
 	}
-	return writeFileAtomic(filepath.Join(dir, "manifest.json"), append(data, '\n'))
+	return p.commit()
+}
+
+// pending writes the manifest, synced, under a temporary name.
+func (m *Manifest) pending(dir string) (*pendingFile, error) {
+	sort.Slice(m.Models, func(i, j int) bool { return m.Models[i].Index < m.Models[j].Index })
+	data, err := json.MarshalIndent(m, "", "  ")
+	if err != nil {
+		return nil, err
+	}
+	data = append(data, '\n')
+	return writePending(filepath.Join(dir, "manifest.json"), func(w io.Writer) error {
+		_, err := w.Write(data)
+		return err
+	}, true)
 }
 
 // ReadManifest reads manifest.json of a run directory.

@@ -331,6 +331,11 @@ func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold 
 	for k := range left {
 		left[k] = nf
 	}
+	// The figures are handed out format by format, PNG first: a PNG
+	// costs 20-50 times an SVG, and with the long jobs first the short
+	// ones (SVGs, then the extra jobs) fill the workers' ends evenly
+	// (longest-job-first list scheduling).
+	order := formatOrder(d.formats)
 	var next atomic.Int64
 	var failed atomic.Bool // a serial draw stops at the first error
 	var wg sync.WaitGroup
@@ -353,8 +358,8 @@ func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold 
 					}
 					continue
 				}
-				k, f := i/nf, i%nf
-				r := &res[i]
+				f, k := order[i/len(jobs)], i%len(jobs)
+				r := &res[k*nf+f]
 				if r.err = d.ctx.Err(); r.err == nil {
 					r.fig = *jobs[k].fig
 					r.paths, r.err = r.fig.Save(filepath.Join(d.pd, jobs[k].name), d.formats[f:f+1])
@@ -393,6 +398,20 @@ func (fr *figRun) draw(jobs []figJob, nextra int, extra func(i int) error, hold 
 		}
 	}
 	return out, notes, nil
+}
+
+// formatOrder lists the indices of formats with the raster format (png)
+// first, the others in their order.
+func formatOrder(formats []string) []int {
+	var order []int
+	for pass := 0; pass < 2; pass++ {
+		for i, f := range formats {
+			if (strings.ToLower(f) == "png") == (pass == 0) {
+				order = append(order, i)
+			}
+		}
+	}
+	return order
 }
 
 // figureDone counts a study figure whose formats are all done and shows
@@ -475,8 +494,11 @@ type saver func(fig *figures.Stack, name string) error
 
 // ownFigure matches the names Plot writes, so that a redraw removes
 // figures of an earlier layout (e.g. saturation_3 when there are now two)
-// and leaves other files alone.
-var ownFigure = regexp.MustCompile(`^(m\d+_(spectra|evolution)|saturation(_[A-Za-z0-9.+-]+)?|theta(_\d+)?)\.(png|svg|pdf|eps)$`)
+// and leaves other files alone. It is compiled when first needed, not at
+// every start of the program.
+var ownFigure = sync.OnceValue(func() *regexp.Regexp {
+	return regexp.MustCompile(`^(m\d+_(spectra|evolution)|saturation(_[A-Za-z0-9.+-]+)?|theta(_\d+)?)\.(png|svg|pdf|eps)$`)
+})
 
 // removeOwnFigures removes the figures Plot draws in the formats about to
 // be drawn, and only those: a redraw in PDF keeps the PNG files.
@@ -484,7 +506,7 @@ func removeOwnFigures(pd string, formats []string) {
 	ents, _ := os.ReadDir(pd)
 	for _, e := range ents {
 		ext := strings.ToLower(strings.TrimPrefix(filepath.Ext(e.Name()), "."))
-		if ownFigure.MatchString(e.Name()) && slices.Contains(formats, ext) {
+		if ownFigure().MatchString(e.Name()) && slices.Contains(formats, ext) {
 			os.Remove(filepath.Join(pd, e.Name()))
 		}
 	}
@@ -569,7 +591,8 @@ func readSummary(t *ecsv.Table) ([]*summaryModel, error) {
 	var cur *summaryModel
 	for i, n := range names {
 		if cur == nil || cur.name != n {
-			cur = &summaryModel{name: n, species: species[i]}
+			// Copies: the cells share the memory of the whole table.
+			cur = &summaryModel{name: strings.Clone(n), species: strings.Clone(species[i])}
 			for j := lo; j < hi; j++ {
 				cur.params = append(cur.params, param{t.Columns[j], pcols[j-lo][i]})
 			}

@@ -119,7 +119,7 @@ func TestSaturationFigureNames(t *testing.T) {
 		}
 	}
 	for _, f := range rep.Figures {
-		if !ownFigure.MatchString(filepath.Base(f)) {
+		if !ownFigure().MatchString(filepath.Base(f)) {
 			t.Errorf("%s is not matched by ownFigure, so a redraw would not replace it", f)
 		}
 	}

@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -118,60 +119,80 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	defer lock.Unlock()
 	l := newLayout(st)
 	now := time.Now()
-	man, err := prepareDir(st, dir, l, opt, now)
-	if err != nil {
-		return nil, err
-	}
 	rep := &Report{Dir: dir, Models: len(st.Models), Summary: filepath.Join(dir, SummaryName), Manifest: filepath.Join(dir, "manifest.json")}
 	if lock.Stale != "" {
 		rep.Notes = append(rep.Notes, "took over the lock left by "+lock.Stale+", which no longer runs")
 	}
-
-	// The models/ files are the record of what is finished; a file that
-	// fails its check is recomputed.
-	var todo []int
-	for i := range st.Models {
-		m := &st.Models[i]
-		ms := &man.Models[i]
-		if !opt.Shard.Holds(m.Index) {
-			if ms.Status != StatusDone {
-				ms.Status, ms.Error = StatusPending, ""
-			}
-			continue
-		}
-		rep.InShard++
-		status, msg := finished(dir, m.Name)
-		switch status {
-		case StatusDone:
-			ms.Status, ms.Error = StatusDone, ""
-			rep.Skipped++
-			continue
-		case StatusFailed:
-			ms.Status, ms.Error = StatusFailed, msg
-		case statusDamaged:
-			ms.Status, ms.Error = StatusPending, ""
-			rep.Notes = append(rep.Notes, msg+"; computing the model again")
-		default:
-			ms.Status, ms.Error = StatusPending, ""
-		}
-		todo = append(todo, i)
-	}
-	kind := "run"
-	if opt.Resume && len(man.Sessions) > 0 {
-		kind = "resume"
-	}
-	man.Sessions = append(man.Sessions, Session{Kind: kind, Started: stamp(now), Workers: opt.Workers, Shard: opt.Shard.String()})
-	sess := &man.Sessions[len(man.Sessions)-1]
-	man.update()
-	if err := man.write(dir); err != nil {
-		return nil, err
-	}
+	session := Session{Kind: "run", Started: stamp(now), Workers: opt.Workers, Shard: opt.Shard.String()}
 
 	// A write error stops the study: models still running are cancelled
 	// and stay pending, finished ones are kept.
 	runCtx, stopRun := context.WithCancel(ctx)
 	defer stopRun()
-	prog := newProgress(opt.Progress, len(todo), rep.Skipped, rep.InShard)
+	var (
+		man  *Manifest
+		todo []int
+		// ready is closed once the directory can take model files;
+		// dirErr, set before, tells the workers that it never will.
+		ready  = make(chan struct{})
+		dirErr error
+	)
+	if _, err := os.Stat(dir); errors.Is(err, fs.ErrNotExist) {
+		// A new directory: every model of the shard is to run. The
+		// directory is made at once, and the models start while its
+		// models/ and spectra/, config.toml and manifest.json are made,
+		// written and synced (several milliseconds, tens on a busy disk);
+		// no model file is written before them. A kill before the
+		// manifest leaves what startedHere accepts, so the directory is
+		// continued like an empty one.
+		if err := os.MkdirAll(filepath.Dir(dir), 0o755); err != nil {
+			return nil, err
+		}
+		if err := os.Mkdir(dir, 0o755); err != nil {
+			return nil, err
+		}
+		for i := range st.Models {
+			if opt.Shard.Holds(st.Models[i].Index) {
+				rep.InShard++
+				todo = append(todo, i)
+			}
+		}
+		go func() {
+			defer close(ready)
+			removeTempDirs(dir) // left by a killed process (createDir)
+			for _, sub := range []string{"models", "spectra"} {
+				if dirErr == nil {
+					if dirErr = os.Mkdir(filepath.Join(dir, sub), 0o755); dirErr != nil {
+						dirErr = fmt.Errorf("creating %s: %w", dir, dirErr)
+					}
+				}
+			}
+			if dirErr == nil {
+				man = newManifest(st, l, opt.Shard, now)
+				man.Sessions = []Session{session}
+				dirErr = man.fill(st)(dir)
+			}
+			if dirErr != nil {
+				stopRun()
+				os.RemoveAll(dir) // made here and holding no result: as if never started
+			}
+		}()
+	} else {
+		var err error
+		if man, todo, err = prepareExisting(st, dir, l, opt, now, rep); err != nil {
+			return nil, err
+		}
+		if opt.Resume && len(man.Sessions) > 0 {
+			session.Kind = "resume"
+		}
+		man.Sessions = append(man.Sessions, session)
+		man.update()
+		if err := man.write(dir); err != nil {
+			return nil, err
+		}
+		close(ready)
+	}
+
 	type result struct {
 		i        int
 		err      error
@@ -193,10 +214,12 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 					continue
 				}
 				t0 := time.Now()
-				warn, err := runOne(runCtx, st, l, dir, &st.Models[i], opt.Model)
+				warn, err := runOne(runCtx, st, l, dir, &st.Models[i], opt.Model, ready, &dirErr)
 				r := result{i: i, err: err, warnings: warn, secs: time.Since(t0).Seconds()}
 				var we *writeError
-				if errors.As(err, &we) {
+				if errors.Is(err, errNoDir) {
+					r.canceled = true
+				} else if errors.As(err, &we) {
 					stopRun() // at once, before another model starts
 				} else if err != nil && runCtx.Err() != nil {
 					r.canceled = true
@@ -221,6 +244,14 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 		}
 	}()
 	go func() { wg.Wait(); close(results) }()
+	<-ready
+	if dirErr != nil {
+		for range results {
+		}
+		return nil, dirErr
+	}
+	sess := &man.Sessions[len(man.Sessions)-1]
+	prog := newProgress(opt.Progress, len(todo), rep.Skipped, rep.InShard)
 	var writeErr error
 	lastWrite := time.Now()
 	for r := range results {
@@ -280,33 +311,66 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 			rep.Pending++
 		}
 	}
-	vs, err := writeSummary(dir, man, l.cols)
-	if err != nil && writeErr == nil {
-		writeErr = err
+	// The summary is rebuilt from the models/ files while the final
+	// manifest is written: both are synced at the same time (one wait for
+	// the disk instead of two) and renamed in that order, so the manifest
+	// never calls a study complete whose summary is not on disk. The
+	// manifest is first written as if the summary succeeds, and written
+	// again if it did not.
+	type summaryResult struct {
+		vs   ValidityStats
+		file *pendingFile
+		err  error
 	}
-	rep.Validity = vs
-	// Record the models' status before drawing: figures are derived from
-	// the tables, and a failure to draw must not hide finished models. The
-	// manifest never calls a study complete whose summary.csv is not on
-	// disk.
-	man.update()
+	sumDone := make(chan summaryResult, 1)
+	go func(s *summary) {
+		var r summaryResult
+		r.vs, r.file, r.err = s.write()
+		sumDone <- r
+	}(newSummary(dir, man, l.cols))
 	end := stamp(time.Now())
 	sess.Finished = end
 	// A signal that arrives once every model of the session is finished
 	// interrupts nothing but the figures.
 	interrupted := ctx.Err() != nil && rep.Pending > 0
-	switch {
-	case writeErr != nil:
-		man.Status = StudyInterrupted
-		sess.Stopped = "write error: " + writeErr.Error()
-	case interrupted:
-		man.Status = StudyInterrupted
-		sess.Stopped = "interrupted"
-	case man.Status != StudyIncomplete:
-		man.Finished = end
+	// Record the models' status before drawing: figures are derived from
+	// the tables, and a failure to draw must not hide finished models.
+	settle := func() {
+		man.update()
+		man.Finished = ""
+		switch {
+		case writeErr != nil:
+			man.Status = StudyInterrupted
+			sess.Stopped = "write error: " + writeErr.Error()
+		case interrupted:
+			man.Status = StudyInterrupted
+			sess.Stopped = "interrupted"
+		case man.Status != StudyIncomplete:
+			man.Finished = end
+		}
 	}
-	if err := man.write(dir); err != nil && writeErr == nil {
-		writeErr = err
+	settle()
+	manFile, manErr := man.pending(dir)
+	sr := <-sumDone
+	rep.Validity = sr.vs
+	if sr.err == nil && sr.file != nil {
+		sr.err = sr.file.commit()
+	}
+	if sr.err == nil {
+		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
+	} else if writeErr == nil {
+		writeErr = sr.err
+		if manFile != nil {
+			manFile.discard()
+		}
+		settle()
+		manFile, manErr = man.pending(dir)
+	}
+	if manErr == nil {
+		manErr = manFile.commit()
+	}
+	if manErr != nil && writeErr == nil {
+		writeErr = manErr
 	}
 	if writeErr != nil {
 		return rep, writeErr
@@ -326,6 +390,10 @@ func Execute(ctx context.Context, st *config.Study, dir string, opt Options) (*R
 	return rep, nil
 }
 
+// errNoDir is the result of a model computed for a run directory that
+// could not be made; the model stays pending.
+var errNoDir = errors.New("no run directory")
+
 // writeError marks a failure to write results (disk full, permissions),
 // which stops the study rather than counting as a failed model.
 type writeError struct{ err error }
@@ -335,7 +403,10 @@ func (e *writeError) Unwrap() error { return e.err }
 
 // runOne computes one model and writes its spectrum and then its models/
 // file. A failed model gets a models/ file with status failed.
-func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *config.Model, run ModelFunc) (warnings []string, err error) {
+//
+// The model is computed before ready is closed if need be; its files are
+// written after, and not at all if *dirErr is then set (errNoDir).
+func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *config.Model, run ModelFunc, ready <-chan struct{}, dirErr *error) (warnings []string, err error) {
 	var tr *transfer.Trajectory
 	func() {
 		defer func() {
@@ -356,6 +427,10 @@ func runOne(ctx context.Context, st *config.Study, l layout, dir string, m *conf
 	}
 	if err == nil {
 		tr.Warnings = append(tr.Warnings, checkGrid(ctx, m.Params, tr)...)
+	}
+	<-ready
+	if *dirErr != nil {
+		return nil, errNoDir
 	}
 	var sum string
 	if err == nil {
@@ -438,12 +513,53 @@ func finished(dir, name string) (status, msg string) {
 	return statusDamaged, fmt.Sprintf("%s records no status", mf)
 }
 
-// prepareDir creates a fresh run directory or checks one to resume. It
-// never modifies an existing directory it refuses. A fresh directory is
-// made complete (config.toml, manifest.json, models/, spectra/) under a
-// temporary name and renamed into place, so a kill at any moment leaves
-// either no directory or one that --resume continues. The caller holds
-// the directory's lock.
+// prepareExisting prepares a directory that exists (prepareDir) and finds
+// the models of the shard that are to run; those finished in earlier
+// sessions are counted in rep.
+func prepareExisting(st *config.Study, dir string, l layout, opt Options, now time.Time, rep *Report) (*Manifest, []int, error) {
+	man, err := prepareDir(st, dir, l, opt, now)
+	if err != nil {
+		return nil, nil, err
+	}
+	// The models/ files are the record of what is finished; a file that
+	// fails its check is recomputed.
+	var todo []int
+	for i := range st.Models {
+		m := &st.Models[i]
+		ms := &man.Models[i]
+		if !opt.Shard.Holds(m.Index) {
+			if ms.Status != StatusDone {
+				ms.Status, ms.Error = StatusPending, ""
+			}
+			continue
+		}
+		rep.InShard++
+		status, msg := finished(dir, m.Name)
+		switch status {
+		case StatusDone:
+			ms.Status, ms.Error = StatusDone, ""
+			rep.Skipped++
+			continue
+		case StatusFailed:
+			ms.Status, ms.Error = StatusFailed, msg
+		case statusDamaged:
+			ms.Status, ms.Error = StatusPending, ""
+			rep.Notes = append(rep.Notes, msg+"; computing the model again")
+		default:
+			ms.Status, ms.Error = StatusPending, ""
+		}
+		todo = append(todo, i)
+	}
+	return man, todo, nil
+}
+
+// prepareDir checks an existing run directory to resume, or fills an
+// empty one (or one a killed start left, see startedHere). It never
+// modifies an existing directory it refuses. A directory that is gone by
+// now is made complete (config.toml, manifest.json, models/, spectra/)
+// under a temporary name and renamed into place. Execute makes new
+// directories itself, beside the first models. The caller holds the
+// directory's lock.
 func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Time) (*Manifest, error) {
 	if dir == "" {
 		return nil, inputErrorf("no run directory given (set output.dir in the config or use --out)")
@@ -488,12 +604,7 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 		}
 	}
 	man := newManifest(st, l, opt.Shard, now)
-	fill := func(d string) error {
-		if err := writeFileAtomic(filepath.Join(d, "config.toml"), st.Resolved); err != nil {
-			return err
-		}
-		return man.write(d) // last: the manifest marks a run directory
-	}
+	fill := man.fill(st)
 	if exists {
 		// An existing empty directory (perhaps the working directory) is
 		// filled in place: replacing it could pull it from under a
@@ -512,6 +623,42 @@ func prepareDir(st *config.Study, dir string, l layout, opt Options, now time.Ti
 		return nil, err
 	}
 	return man, nil
+}
+
+// fill returns the function that writes a new run directory's files
+// into d: config.toml, then the manifest, which marks a run directory.
+// Both are written and synced at the same time (one wait for the disk
+// instead of two) and renamed in that order.
+func (m *Manifest) fill(st *config.Study) func(d string) error {
+	return func(d string) error {
+		var cfg *pendingFile
+		var cfgErr error
+		done := make(chan struct{})
+		go func() {
+			defer close(done)
+			cfg, cfgErr = writePending(filepath.Join(d, "config.toml"), func(w io.Writer) error {
+				_, err := w.Write(st.Resolved)
+				return err
+			}, true)
+		}()
+		man, err := m.pending(d)
+		<-done
+		if err == nil && cfgErr == nil {
+			if err = cfg.commit(); err == nil {
+				return man.commit()
+			}
+		}
+		if cfg != nil {
+			cfg.discard()
+		}
+		if man != nil {
+			man.discard()
+		}
+		if cfgErr != nil {
+			return cfgErr
+		}
+		return err
+	}
 }
 
 // startedHere reports whether dir is empty, or holds only what a start of
@@ -665,7 +812,26 @@ func summaryStats(vs *ValidityStats, t *ecsv.Table, ncols int) error {
 // order. It needs only the directory and its manifest, so Merge builds the
 // same bytes as Execute; cols is the layout to use when no model is done.
 func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats, error) {
-	var vs ValidityStats
+	vs, p, err := newSummary(dir, man, cols).write()
+	if err == nil && p != nil {
+		err = p.commit()
+	}
+	if err == nil {
+		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
+	}
+	return vs, err
+}
+
+// summary is what the summary table is built from, taken from the
+// manifest so that the table can be written while the manifest changes.
+type summary struct {
+	dir  string
+	meta []ecsv.Meta
+	cols []ecsv.Column
+	done []string // models/ files of the finished models, in index order
+}
+
+func newSummary(dir string, man *Manifest, cols []ecsv.Column) *summary {
 	meta := []ecsv.Meta{
 		{Key: "program", Value: "maserpol " + Version},
 		{Key: "config_hash", Value: man.ConfigHash},
@@ -675,27 +841,35 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 	if len(man.VariedColumns) > 0 {
 		meta = append(meta, ecsv.Meta{Key: "varied_columns", Value: strings.Join(man.VariedColumns, ", ")})
 	}
-	// The model tables are read one at a time and their rows streamed into
-	// the summary, so memory does not grow with the number of models.
 	done := make([]string, 0, len(man.Models))
 	for _, ms := range man.Models {
 		if ms.Status == StatusDone {
 			done = append(done, filepath.Join(dir, "models", ms.Name+".ecsv"))
 		}
 	}
+	return &summary{dir: dir, meta: meta, cols: cols, done: done}
+}
+
+// write writes the summary, synced, under a temporary name (nil when no
+// model is done and there is no layout to write an empty table with).
+func (s *summary) write() (ValidityStats, *pendingFile, error) {
+	var vs ValidityStats
+	cols := s.cols
 	if cols == nil {
-		if len(done) == 0 {
-			return vs, nil
+		if len(s.done) == 0 {
+			return vs, nil, nil
 		}
-		t, err := ecsv.ReadFile(done[0])
+		t, err := ecsv.ReadFile(s.done[0])
 		if err != nil {
-			return vs, err
+			return vs, nil, err
 		}
 		cols = t.Columns
 	}
-	err := writeAtomic(filepath.Join(dir, SummaryName), func(out io.Writer) error {
-		w := ecsv.NewWriterSize(out, ecsv.BufferSize, cols, meta)
-		for _, path := range done {
+	// The model tables are read one at a time and their rows streamed into
+	// the summary, so memory does not grow with the number of models.
+	p, err := writePending(filepath.Join(s.dir, SummaryName), func(out io.Writer) error {
+		w := ecsv.NewWriterSize(out, ecsv.BufferSize, cols, s.meta)
+		for _, path := range s.done {
 			t, err := ecsv.ReadFile(path)
 			if err != nil {
 				return err
@@ -710,9 +884,6 @@ func writeSummary(dir string, man *Manifest, cols []ecsv.Column) (ValidityStats,
 			}
 		}
 		return w.Flush()
-	})
-	if err == nil {
-		os.Remove(filepath.Join(dir, legacySummaryName)) // superseded by SummaryName
-	}
-	return vs, err
+	}, true)
+	return vs, p, err
 }

@@ -11,6 +11,7 @@ import (
 	"regexp"
 	"runtime"
 	"strings"
+	"sync"
 	"text/tabwriter"
 
 	"maserpol/config/units"
@@ -231,9 +232,11 @@ func cmdField(ctx context.Context, args []string, stdout, stderr io.Writer) int 
 	return exitOK
 }
 
-var unsafeChars = regexp.MustCompile(`[^A-Za-z0-9._+-]+`)
+// unsafeChars is compiled when first needed, not at every start of the
+// program.
+var unsafeChars = sync.OnceValue(func() *regexp.Regexp { return regexp.MustCompile(`[^A-Za-z0-9._+-]+`) })
 
-func featureFileName(s string) string { return unsafeChars.ReplaceAllString(s, "_") }
+func featureFileName(s string) string { return unsafeChars().ReplaceAllString(s, "_") }
 
 func figuresFormats() []string { return []string{"png", "svg", "pdf", "eps"} }
 

@@ -1,10 +1,12 @@
 package ecsv
 
 import (
+	"bufio"
 	"bytes"
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -401,5 +403,74 @@ func TestFloatText(t *testing.T) {
 	w := NewWriter(&c, []Column{{Name: "n", Datatype: Int64}}, nil)
 	if err := w.FloatText([]byte("1.5")).End(); err == nil {
 		t.Error("FloatText in an int64 column accepted")
+	}
+}
+
+// readLines lists the lines of data as read splits them.
+func readLines(data string) []string {
+	var out []string
+	for rest := data; rest != ""; {
+		var s string
+		s, rest = nextLine(rest)
+		out = append(out, s)
+	}
+	return out
+}
+
+// scannerLines lists the lines of data as bufio.Scanner gives them, which
+// is how tables were read before the whole file was read at once.
+func scannerLines(data string) []string {
+	var out []string
+	sc := bufio.NewScanner(strings.NewReader(data))
+	sc.Buffer(make([]byte, 64), 1<<20)
+	for sc.Scan() {
+		out = append(out, sc.Text())
+	}
+	return out
+}
+
+func FuzzLines(f *testing.F) {
+	for _, s := range []string{"", "a", "a\n", "a\r\n", "\r", "\n\n", "a\n\nb", "a\r\rb\r\n", "x,y\r\n1,2"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, data string) {
+		if got, want := readLines(data), scannerLines(data); !slices.Equal(got, want) {
+			t.Errorf("%q: lines %q, bufio.Scanner %q", data, got, want)
+		}
+	})
+}
+
+// TestReadRows checks rows split in place against strings.Split, with
+// quoted rows, CRLF, a byte-order mark and no final newline mixed in.
+func TestReadRows(t *testing.T) {
+	cases := []struct {
+		data string
+		want [][]string
+	}{
+		{"\ufeffa,b\r\n1,2\r\n\r\n3,4", [][]string{{"1", "2"}, {"3", "4"}}},
+		{"a,b,c\n1,,3\n\"x,y\",2,3\n,,\n", [][]string{{"1", "", "3"}, {"x,y", "2", "3"}, {"", "", ""}}},
+		{"a\tb\n1\t2\n", [][]string{{"1", "2"}}},
+		{"a b\n1   2\n", [][]string{{"1", "2"}}},
+	}
+	for _, c := range cases {
+		tab, err := Read(strings.NewReader(c.data), "t.csv")
+		if err != nil {
+			t.Errorf("%q: %v", c.data, err)
+			continue
+		}
+		if !slices.EqualFunc(tab.Rows, c.want, slices.Equal) {
+			t.Errorf("%q: rows %q, want %q", c.data, tab.Rows, c.want)
+		}
+		for i := range tab.Rows {
+			if i+1 < len(tab.Rows) {
+				tab.Rows[i] = append(tab.Rows[i], "extra") // must not overwrite the next row
+			}
+		}
+		if len(tab.Rows) > 1 && tab.Rows[1][0] != c.want[1][0] {
+			t.Errorf("%q: appending to a row changed the next one", c.data)
+		}
+	}
+	if _, err := Read(strings.NewReader("a,b\n1,2,3\n"), "t.csv"); err == nil || !strings.Contains(err.Error(), "t.csv:2: row has 3 values, expected 2") {
+		t.Errorf("row too long: error %v", err)
 	}
 }

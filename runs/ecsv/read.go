@@ -10,10 +10,13 @@ import (
 	"os"
 	"strconv"
 	"strings"
+	"unsafe"
 )
 
 // Table is a table read from an ECSV or plain CSV file. Cells are kept as
-// text; Floats and Strings convert whole columns.
+// text; Floats and Strings convert whole columns. The cells share the
+// memory of the whole file: a string kept long after the table (a name)
+// is best copied with strings.Clone.
 type Table struct {
 	File    string
 	ECSV    bool // false for a plain CSV file with a header row
@@ -25,27 +28,69 @@ type Table struct {
 
 // ReadFile reads the table in path.
 func ReadFile(path string) (*Table, error) {
-	f, err := os.Open(path)
+	data, err := os.ReadFile(path)
 	if err != nil {
 		return nil, err
 	}
-	defer f.Close()
-	return Read(f, path)
+	return read(bytesString(data), path)
+}
+
+// bytesString is data as a string without a copy: data is ours and never
+// written again, so the string stays immutable.
+func bytesString(data []byte) string {
+	if len(data) == 0 {
+		return ""
+	}
+	return unsafe.String(&data[0], len(data))
 }
 
 // Read reads an ECSV 1.0 table, or a plain CSV/whitespace-separated table
 // whose first non-comment line is a header row. name is used in errors.
 func Read(r io.Reader, name string) (*Table, error) {
+	data, err := io.ReadAll(r)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %v", name, err)
+	}
+	return read(bytesString(data), name)
+}
+
+// maxLine is the longest line read (a bound against reading a binary file
+// as one line).
+const maxLine = 16 * 1024 * 1024
+
+// nextLine splits the first line off data as bufio.ScanLines does: up to
+// a newline, which is dropped with a carriage return before it; a last
+// line without newline counts.
+func nextLine(data string) (line, rest string) {
+	i := strings.IndexByte(data, '\n')
+	if i < 0 {
+		line, rest = data, ""
+	} else {
+		line, rest = data[:i], data[i+1:]
+	}
+	return strings.TrimSuffix(line, "\r"), rest
+}
+
+// read reads the table in data. The whole file is one string: lines and
+// cells are slices of it, and the cells of all rows share one backing
+// array, so a table costs a few allocations rather than two per row
+// (reading the spectra of a study's figures allocated as much as
+// drawing them).
+func read(data, name string) (*Table, error) {
 	t := &Table{File: name}
-	sc := bufio.NewScanner(r)
-	sc.Buffer(make([]byte, 64*1024), 16*1024*1024)
 	var header []string // comment lines with "# " removed
-	var body []string
-	var bodyLines []int
+	nl := strings.Count(data, "\n") + 1
+	body := make([]string, 0, nl)
+	bodyLines := make([]int, 0, nl)
 	line := 0
-	for sc.Scan() {
+	for rest := data; rest != ""; {
+		var s string
+		s, rest = nextLine(rest)
+		if len(s) > maxLine {
+			return nil, fmt.Errorf("%s: %v", name, bufio.ErrTooLong)
+		}
 		line++
-		s := strings.TrimRight(sc.Text(), "\r")
+		s = strings.TrimRight(s, "\r")
 		if line == 1 {
 			s = strings.TrimPrefix(s, "\ufeff")
 		}
@@ -60,9 +105,6 @@ func Read(r io.Reader, name string) (*Table, error) {
 		}
 		body = append(body, s)
 		bodyLines = append(bodyLines, line)
-	}
-	if err := sc.Err(); err != nil {
-		return nil, fmt.Errorf("%s: %v", name, err)
 	}
 	delim := byte(0)
 	if len(header) > 0 && strings.HasPrefix(strings.TrimSpace(header[0]), "%ECSV") {
@@ -136,14 +178,37 @@ func Read(r io.Reader, name string) (*Table, error) {
 			t.Columns = append(t.Columns, c)
 		}
 	}
+	ncol := len(t.Columns)
+	t.Rows = make([][]string, 0, len(body)-1)
+	t.lines = make([]int, 0, len(body)-1)
+	var cells []string // backing array of the rows split in place
 	for i, s := range body[1:] {
 		ln := bodyLines[i+1]
-		rec, err := split(s, ln)
-		if err != nil {
-			return nil, err
+		var rec []string
+		if delim != ' ' && !strings.Contains(s, `"`) {
+			// As strings.Split, into the shared backing array.
+			if n := strings.Count(s, string(delim)) + 1; n != ncol {
+				return nil, fmt.Errorf("%s:%d: row has %d values, expected %d", name, ln, n, ncol)
+			}
+			if cap(cells)-len(cells) < ncol {
+				cells = make([]string, 0, ncol*(len(body)-1-i))
+			}
+			k := len(cells)
+			for j := 1; j < ncol; j++ {
+				c := strings.IndexByte(s, delim)
+				cells = append(cells, s[:c])
+				s = s[c+1:]
+			}
+			cells = append(cells, s)
+			rec = cells[k:len(cells):len(cells)]
+		} else {
+			var err error
+			if rec, err = split(s, ln); err != nil {
+				return nil, err
+			}
 		}
-		if len(rec) != len(t.Columns) {
-			return nil, fmt.Errorf("%s:%d: row has %d values, expected %d", name, ln, len(rec), len(t.Columns))
+		if len(rec) != ncol {
+			return nil, fmt.Errorf("%s:%d: row has %d values, expected %d", name, ln, len(rec), ncol)
 		}
 		t.Rows = append(t.Rows, rec)
 		t.lines = append(t.lines, ln)
