@@ -2,44 +2,44 @@ package runs
 
 import (
 	"bytes"
+	"errors"
 	"strings"
 	"testing"
-	"time"
 )
 
-// TestBar checks the terminal bar: fill, count, elapsed and remaining
-// time, the final line without a remaining time, and that a shorter line
-// blanks what is left of a longer one.
-func TestBar(t *testing.T) {
-	t0 := time.Date(2026, 1, 1, 0, 0, 0, 0, time.UTC)
-	cases := []struct {
-		n, max int
-		at     time.Duration
-		want   string
-	}{
-		{0, 4, 0, "models   0% |" + strings.Repeat(" ", 40) + "| (0/4) [0s]"},
-		{1, 4, 3 * time.Second, "models  25% |" + strings.Repeat("█", 10) + strings.Repeat(" ", 30) + "| (1/4) [3s:9s]"},
-		{4, 4, 12500 * time.Millisecond, "models 100% |" + strings.Repeat("█", 40) + "| (4/4) [12s]"},
-	}
-	for _, c := range cases {
-		b := &bar{n: c.n, max: c.max, start: t0}
-		if got := b.line(t0.Add(c.at)); got != c.want {
-			t.Errorf("%d/%d at %v:\n got %q\nwant %q", c.n, c.max, c.at, got, c.want)
+// TestProgressBar draws the terminal bar into a buffer: it reaches the
+// full count, a failed model's message stands on its own line, and the
+// session's summary line follows the bar.
+func TestProgressBar(t *testing.T) {
+	var out bytes.Buffer
+	p := newProgressMode(&out, 3, 0, 3, true)
+	p.done("m1", nil, 0.1)
+	p.done("m2", errors.New("step size collapsed"), 0.1)
+	p.done("m3", nil, 0.1)
+	p.finish()
+	s := out.String()
+	for _, want := range []string{"models", "(3/3)", "100 %", "maserpol: m2 failed: step size collapsed\n", "maserpol: 3 of 3 models finished"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("bar output lacks %q:\n%q", want, s)
 		}
 	}
-
-	var out bytes.Buffer
-	b := &bar{w: &out, max: 2, start: t0}
-	b.render(t0.Add(90 * time.Minute)) // [1h30m0s]: the longest line here
-	long := b.drawnWidth
-	out.Reset()
-	b.add(t0.Add(90*time.Minute + 50*time.Millisecond)) // throttled: nothing drawn
-	if out.Len() != 0 {
-		t.Errorf("drawn again within %v: %q", barEvery, out.String())
+	if i, j := strings.LastIndex(s, "(3/3)"), strings.Index(s, "maserpol: 3 of 3"); i > j {
+		t.Errorf("summary line before the final bar:\n%q", s)
 	}
-	b.n = 0
-	b.render(t0.Add(time.Second))
-	if got := len([]rune(strings.TrimPrefix(out.String(), "\r"))); got != long {
-		t.Errorf("redrawn line is %d characters, the one before %d: its rest is not blanked", got, long)
+}
+
+// TestProgressLines: without a terminal, one line per model.
+func TestProgressLines(t *testing.T) {
+	var out bytes.Buffer
+	p := newProgressMode(&out, 2, 1, 3, false)
+	p.done("m2", nil, 0.5)
+	p.done("m3", errors.New("bad"), 0.25)
+	p.finish()
+	want := "maserpol: 1 of 3 models already finished; running 2\n" +
+		"maserpol: running 2 models\n" +
+		"maserpol: [2/3] m2 done (0.50 s)\n" +
+		"maserpol: [3/3] m3 failed: bad (0.25 s)\n"
+	if s := out.String(); !strings.HasPrefix(s, want) || !strings.Contains(s, "maserpol: 3 of 3 models finished") {
+		t.Errorf("got\n%s\nwant a start of\n%s", s, want)
 	}
 }
