@@ -148,9 +148,13 @@ const AutoCoherenceFrom = 1e-4
 // densely in every class at the peak). Above either, Auto keeps the rate
 // equations with a warning; Density runs the system anyway. Measured
 // (2 shared cores): h2o-22 at 0.3 G to R/Gamma = 1e3, 886 unknowns with
-// a strong block of 152, about a minute per 256-channel model; at 10 mG
-// to R/Gamma = 100 the strong block is 378 and a 5-angle zeeman-factor
-// table took over ten minutes, which is why the strong limit is 200.
+// a strong block of 152, about a minute per 256-channel model before the
+// adiabatic sweep (classsolve.go), 8 s after it; at 10 mG to R/Gamma =
+// 100 the strong block is 378 and a 5-angle zeeman-factor table took over
+// ten minutes, which is why the strong limit is 200; h2o-22 at 0.9 G to
+// R/Gamma = 1e4 (2610 unknowns, strong block 414) still takes 2 min per
+// 512-channel model, and the synthetic J=6-5 line at 1 G to 1e3 (2650,
+// 328) 40 s at 256 channels, 56 times its rate equations.
 const (
 	autoMaxDim    = 1500
 	autoMaxStrong = 200
