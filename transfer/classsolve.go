@@ -34,19 +34,21 @@ import (
 // modules, so GMRES is written here.
 //
 // The pairs split by more than c_a = adiabaticFactor times the class's
-// rate (up to kappa R, the coherence set) do not enter the system at all: after GMRES has solved the rest, one block
-// Gauss-Seidel sweep gives each its first-order value (sweep), so their
-// cost is one assembly of the lower triangle of their rows.
+// rate (up to kappa R, the coherence set) do not enter the system at all:
+// after GMRES has solved the rest, one block Gauss-Seidel sweep gives each
+// its first-order value (sweep), at the cost of one pass over the stencil
+// entries of its row. A class whose pairs are all that weak needs no LU:
+// its populations are the rate equations' (coherent.solve).
 //
 // The tolerance is set by the inversion: in saturation the upper and
 // lower populations agree to ~ Gamma/R, so a residual of classTol of the
 // right-hand side leaves an error in the inversion of at most ~ classTol
 // (R/Gamma)^2, 1e-5 relative at R/Gamma = 1e3, below the step control's
 // tolerance; a whole run with every pair in the system agrees with dense
-// LU to 1e-7 in q_b, u_b and P_V (TestIterativeRunMatchesDense; it still does at classTol = 1e-7 and fails
-// at 1e-5, so the margin is two decades). 1e-13 costs a third more
-// iterations for no change in the reported digits (measured, water at
-// R/Gamma = 1e3).
+// LU to 1e-7 in q_b, u_b and P_V (TestIterativeRunMatchesDense; it still
+// does at classTol = 1e-7 and fails at 1e-5, so the margin is two
+// decades). 1e-13 costs a third more iterations for no change in the
+// reported digits (measured, water at R/Gamma = 1e3).
 
 // iterativeFrom is the class-system size above which the iterative path is
 // built. Below it the populations are most of the system, so the strong
@@ -67,8 +69,11 @@ const strongFactor = 1.0
 // 1e3 moves by 8e-6 in q_b and m_l, 2e-6 in u_b and 0.01-0.02 % in P_V
 // against every pair exact, ten times that at a factor of 10 (measured;
 // TestAdiabaticPairs), while dropping those pairs instead moves u_b by
-// 2e-3. The sweep halves the density-matrix time of water and cuts that of
-// the synthetic J=6-5 line by a third (project choice).
+// 2e-3. With the rate-equation populations of all-swept classes it took
+// water's density-matrix run from 12.4 to 8.3 s at R/Gamma = 1e3 (13.3 to
+// 2.5 s for the demo's model at 30) and the synthetic J=6-5 line's from
+// 105 to 41 s (BenchmarkH2O22Auto, BenchmarkH2ODemo,
+// BenchmarkSyntheticJ65Density; project choice).
 const adiabaticFactor = 30.0
 
 // classTol is GMRES's relative residual target at the default step
