@@ -196,27 +196,22 @@ func BenchmarkSpeedAgainstSciPy(b *testing.B) {
 	}
 	dir := b.TempDir()
 	var goWall, pyWall, goCPU, pyCPU time.Duration
-	runGo := func(i int) {
-		cmd := exec.Command(binary, "run", speedStudy, "--no-plots", "--out", filepath.Join(dir, fmt.Sprintf("go%d", i)))
+	// timed runs cmd and adds its wall and CPU time.
+	timed := func(what string, cmd *exec.Cmd, wall, cpu *time.Duration) {
 		var e bytes.Buffer
 		cmd.Stderr = &e
 		t0 := time.Now()
 		if err := cmd.Run(); err != nil {
-			b.Fatalf("maserpol run: %v\n%s", err, e.String())
+			b.Fatalf("%s: %v\n%s", what, err, e.String())
 		}
-		goWall += time.Since(t0)
-		goCPU += cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()
+		*wall += time.Since(t0)
+		*cpu += cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()
+	}
+	runGo := func(i int) {
+		timed("maserpol run", exec.Command(binary, "run", speedStudy, "--no-plots", "--out", filepath.Join(dir, fmt.Sprintf("go%d", i))), &goWall, &goCPU)
 	}
 	runPy := func() {
-		cmd := exec.Command(py, append([]string{speedRef}, speedRefArgs...)...)
-		var e bytes.Buffer
-		cmd.Stderr = &e
-		t0 := time.Now()
-		if err := cmd.Run(); err != nil {
-			b.Fatalf("reference.py: %v\n%s", err, e.String())
-		}
-		pyWall += time.Since(t0)
-		pyCPU += cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()
+		timed("reference.py", exec.Command(py, append([]string{speedRef}, speedRefArgs...)...), &pyWall, &pyCPU)
 	}
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
